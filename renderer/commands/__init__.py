@@ -1,0 +1,1 @@
+"""Subcommands of the ``magretina`` CLI, one module each (see :mod:`renderer.cli`)."""

@@ -1,0 +1,104 @@
+"""Argument groups and output-folder rules shared by several subcommands.
+
+Subcommands describe one configuration (site or fixed field, pose, layout,
+response, view, scene) with the same flags; this module adds those flags and turns
+parsed arguments into library objects.  It also holds the rule that nothing in an
+output location is overwritten without ``--force``.
+"""
+
+from __future__ import annotations
+
+import os
+
+from ..errors import MagretinaError
+
+
+def add_field_args(p, date_default="2026-06-01"):
+    g = p.add_argument_group("field")
+    g.add_argument("--lat", type=float, help="geodetic latitude, degrees (-90..90)")
+    g.add_argument("--lon", type=float, help="longitude, degrees east")
+    g.add_argument("--alt-km", type=float, default=0.0, help="altitude above WGS84, km")
+    g.add_argument("--date", default=date_default, help="ISO 8601 date (1900-01-01..2030-01-01)")
+    g.add_argument("--model", default="igrf", help="field model: igrf | dipole")
+    g.add_argument("--field-uT", type=float, help="fixed field: total intensity, µT (instead of a site)")
+    g.add_argument("--inclination", type=float, help="fixed field: inclination, degrees")
+    g.add_argument("--declination", type=float, default=0.0, help="fixed field: declination, degrees")
+
+
+def field_from_args(a):
+    from ..field import at_site, fixed
+
+    if a.field_uT is not None:
+        if a.inclination is None:
+            raise MagretinaError("--field-uT needs --inclination (degrees)")
+        return fixed(a.field_uT, a.inclination, a.declination)
+    if a.lat is None or a.lon is None:
+        raise MagretinaError("give a site (--lat and --lon) or a fixed field (--field-uT, --inclination)")
+    return at_site(a.model, a.lat, a.lon, a.alt_km, a.date)
+
+
+def add_pose_args(p):
+    g = p.add_argument_group("head pose")
+    g.add_argument("--yaw", type=float, default=0.0, help="heading, degrees clockwise from north")
+    g.add_argument("--pitch", type=float, default=0.0, help="nose-up, degrees")
+    g.add_argument("--roll", type=float, default=0.0, help="right side down, degrees")
+
+
+def add_model_args(p):
+    g = p.add_argument_group("eye and response")
+    g.add_argument("--layout", default="lateral", help="layout preset name or TOML file")
+    g.add_argument("--legendre", default="0.7,0,0.1",
+                   help="axial response as Legendre coefficients c0,c1,c2,... (default 0.7,0,0.1)")
+    g.add_argument("--response-csv", help="axial response table: CSV of theta_deg,value")
+    g.add_argument("--product", default="singlet", help="which product drives vision: singlet | triplet")
+    g.add_argument("--gain", type=float, default=1.0, help="modulation gain (>= 0)")
+
+
+def response_from_args(a):
+    from ..response import Legendre, Tabulated
+
+    if a.response_csv:
+        return Tabulated.from_csv(a.response_csv)
+    try:
+        coeffs = [float(x) for x in str(a.legendre).split(",") if x.strip()]
+    except ValueError:
+        raise MagretinaError(f"--legendre {a.legendre!r}: expected comma-separated numbers") from None
+    return Legendre(coeffs)
+
+
+def add_view_args(p, default_width=1024):
+    g = p.add_argument_group("view and scene")
+    g.add_argument("--view", default="world-panorama", help="world-panorama | head-panorama | eye-disc")
+    g.add_argument("--width", type=int, default=default_width, help="panorama width or disc size, pixels")
+    g.add_argument("--eye", default=None, help="eye name or index (eye-disc, or to show one eye only)")
+    g.add_argument("--scene", default=None, help="2:1 equirectangular scene image (default: procedural dusk)")
+    g.add_argument("--north-col", type=float, default=None,
+                   help="column (pixels) of geographic north in the scene (default: width/2)")
+
+
+def view_from_args(a):
+    from ..views import REGISTRY
+
+    if a.view not in REGISTRY:
+        raise MagretinaError(f"--view {a.view!r}: allowed {', '.join(REGISTRY)}")
+    eye = a.eye
+    if eye is not None and eye.isdigit():
+        eye = int(eye)
+    if a.view == "eye-disc":
+        return REGISTRY[a.view](eye=0 if eye is None else eye, size=a.width)
+    return REGISTRY[a.view](width=a.width, pick=eye)
+
+
+def scene_from_args(a, width):
+    from ..scene import Scene, dusk
+
+    if a.scene:
+        return Scene.load(a.scene, north_col=a.north_col)
+    return dusk(max(width, 1024))
+
+
+def refuse_overwrite(paths, force):
+    """Raise unless ``force`` if any of ``paths`` already exists."""
+    existing = [p for p in paths if p and os.path.exists(p)]
+    if existing and not force:
+        raise MagretinaError(f"{existing[0]} already exists; pass --force to overwrite")

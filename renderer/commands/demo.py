@@ -1,0 +1,25 @@
+"""``magretina demo``: render the built-in demo study on defaults."""
+
+from __future__ import annotations
+
+
+def register(sub):
+    p = sub.add_parser("demo", help="render the built-in demo study into outputs/demo/")
+    p.add_argument("--out", default="outputs/demo", help="output folder (default outputs/demo)")
+    p.add_argument("--width", type=int, default=1024, help="panorama width in pixels (default 1024)")
+    p.add_argument("--force", action="store_true", help="write into a non-empty folder of other content")
+    p.set_defaults(func=run)
+
+
+def run(a) -> int:
+    import os
+
+    from ..demo import CAUTION, SITE, run_demo
+
+    files = run_demo(a.out, width=a.width, force=a.force)
+    print(f"demo: {SITE['name']}, {SITE['lat_deg']} N {SITE['lon_deg']} E, {SITE['date']}")
+    print(f"wrote {len(files)} files to {os.path.abspath(a.out)}:")
+    for f in files:
+        print("  " + f)
+    print(CAUTION)
+    return 0

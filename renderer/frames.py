@@ -1,0 +1,61 @@
+"""Direction conventions and frame-to-frame helpers, written once.
+
+World frame: local North-East-Down (NED).  Head frame: forward-right-down (FRD).
+At interfaces directions are azimuth/elevation in degrees: azimuth clockwise from
+the frame's x axis (north, or forward) towards its y axis (east, or right),
+elevation positive up (against +z, which points down).  Inside, unit vectors.
+This module holds only these conversions, not any rotation of a particular pose
+(see :mod:`renderer.pose`) or eye (see :mod:`renderer.eye`).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+
+def azel_to_vec(az_deg, el_deg) -> np.ndarray:
+    """Unit vectors from azimuth/elevation in degrees.
+
+    Parameters
+    ----------
+    az_deg, el_deg : array_like
+        Azimuth (clockwise from x towards y) and elevation (positive up), degrees.
+
+    Returns
+    -------
+    ndarray, shape (..., 3)
+        (x, y, z) with z pointing down, float64.
+    """
+    az = np.radians(np.asarray(az_deg, dtype=np.float64))
+    el = np.radians(np.asarray(el_deg, dtype=np.float64))
+    ce = np.cos(el)
+    return np.stack([ce * np.cos(az), ce * np.sin(az), -np.sin(el)], axis=-1)
+
+
+def vec_to_azel(v):
+    """Azimuth and elevation in degrees of vectors of shape (..., 3) (need not be unit).
+
+    Returns
+    -------
+    az_deg : ndarray, in (-180, 180]
+    el_deg : ndarray, in [-90, 90]
+    """
+    v = np.asarray(v, dtype=np.float64)
+    x, y, z = v[..., 0], v[..., 1], v[..., 2]
+    az = np.degrees(np.arctan2(y, x))
+    el = np.degrees(np.arctan2(-z, np.hypot(x, y)))
+    return az, el
+
+
+def angle_between_deg(u, v) -> np.ndarray:
+    """Angle in degrees between vectors (last axis 3), robust near 0 and 180 degrees."""
+    u = np.asarray(u, dtype=np.float64)
+    v = np.asarray(v, dtype=np.float64)
+    cr = np.linalg.norm(np.cross(u, v), axis=-1)
+    dt = np.sum(u * v, axis=-1)
+    return np.degrees(np.arctan2(cr, dt))
+
+
+def rotate(R, v) -> np.ndarray:
+    """Apply a 3x3 rotation to vectors of shape (..., 3): returns R @ v for each."""
+    return np.asarray(v, dtype=np.float64) @ np.asarray(R, dtype=np.float64).T

@@ -1,0 +1,113 @@
+"""Reading and writing files safely: atomic writes, PNG/JSON encoders, image decoding.
+
+Every output goes to a temporary name in the target folder and is renamed into
+place (``os.replace``), so an interrupted run never leaves a partial file visible.
+Images are decoded here and turned into linear light by :mod:`renderer.composite`.
+This module does not decide *where* outputs go (see the study runner and CLI).
+"""
+
+from __future__ import annotations
+
+import io
+import json
+import os
+import tempfile
+
+import numpy as np
+
+from .errors import MagretinaError
+
+
+def atomic_write_bytes(path, data: bytes) -> str:
+    """Write ``data`` to ``path`` atomically; returns the path."""
+    path = os.fspath(path)
+    folder = os.path.dirname(os.path.abspath(path))
+    os.makedirs(folder, exist_ok=True)
+    fd, tmp = tempfile.mkstemp(prefix="." + os.path.basename(path) + ".", suffix=".tmp", dir=folder)
+    try:
+        with os.fdopen(fd, "wb") as fh:
+            fh.write(data)
+            fh.flush()
+            os.fsync(fh.fileno())
+        os.replace(tmp, path)
+    except BaseException:
+        try:
+            os.unlink(tmp)
+        except OSError:
+            pass
+        raise
+    return path
+
+
+def atomic_write_text(path, text: str) -> str:
+    return atomic_write_bytes(path, text.encode("utf-8"))
+
+
+def atomic_write_json(path, obj) -> str:
+    return atomic_write_text(path, json.dumps(obj, indent=2, sort_keys=True, default=_jsonable) + "\n")
+
+
+def _jsonable(o):
+    if isinstance(o, np.ndarray):
+        return o.tolist()
+    if isinstance(o, (np.floating, np.integer)):
+        return o.item()
+    return str(o)
+
+
+def png_bytes(array) -> bytes:
+    """Encode a uint8 or uint16 (H, W[, C]) array as PNG bytes (imageio/pillow)."""
+    import imageio.v3 as iio
+
+    buf = io.BytesIO()
+    iio.imwrite(buf, np.asarray(array), extension=".png")
+    return buf.getvalue()
+
+
+def write_png8_srgb(path, lin) -> str:
+    """Write a linear float image as an 8-bit sRGB PNG, atomically."""
+    from .composite import to_uint8_srgb
+
+    return atomic_write_bytes(path, png_bytes(to_uint8_srgb(lin)))
+
+
+def write_png16_linear(path, lin) -> str:
+    """Write a linear float image as a 16-bit linear PNG, atomically (no gamma chunk)."""
+    from .composite import to_uint16_linear
+
+    return atomic_write_bytes(path, png_bytes(to_uint16_linear(lin)))
+
+
+def read_image_linear(path) -> np.ndarray:
+    """Read an image file into linear light, float32 (H, W, 3) in [0, 1].
+
+    8-bit images are taken as sRGB-encoded; 16-bit images as linear values (the
+    convention of magretina's own 16-bit outputs).  Alpha is dropped.
+    """
+    import imageio.v3 as iio
+
+    from .composite import from_uint8_srgb
+
+    p = os.fspath(path)
+    if not os.path.isfile(p):
+        raise MagretinaError(f"image {p}: no such file")
+    try:
+        img = iio.imread(p)
+    except Exception as exc:  # imageio raises many types for corrupt files
+        raise MagretinaError(f"image {p}: cannot be decoded as an image ({type(exc).__name__}: "
+                             f"{exc})") from None
+    img = np.asarray(img)
+    if img.ndim == 2:
+        img = np.repeat(img[..., None], 3, axis=-1)
+    if img.ndim != 3 or img.shape[2] not in (1, 3, 4):
+        raise MagretinaError(f"image {p}: unsupported shape {img.shape}; need H x W x 1, 3 or 4")
+    if img.shape[2] == 1:
+        img = np.repeat(img, 3, axis=-1)
+    img = img[..., :3]
+    if img.dtype == np.uint8:
+        return from_uint8_srgb(img)
+    if img.dtype == np.uint16:
+        return (img.astype(np.float32) / 65535.0)
+    if np.issubdtype(img.dtype, np.floating):
+        return np.clip(img.astype(np.float32), 0.0, 1.0)
+    raise MagretinaError(f"image {p}: unsupported sample type {img.dtype}")

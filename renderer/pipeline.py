@@ -1,0 +1,209 @@
+"""The end-to-end path for one shot: field + pose + layout + response + view → arrays.
+
+:func:`render_pattern` gives the raw response value per pixel; :func:`render`
+composites the normalised modulation onto a scene.  Both build the per-shot inputs
+of :mod:`renderer.kernels` (the field in each eye's frame, the response lookup
+table) and call the numba kernels.  The modulation is normalised by the mean
+signal over the layout's whole visual field, solid-angle weighted on a fixed
+head-frame grid, so the same receptor gets the same modulation in every view.
+This module does no file I/O.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from . import kernels
+from .errors import MagretinaError
+from .response.base import LUT_SIZE
+
+#: Head-frame grid used for the visual-field mean (width; height is half).
+MEAN_GRID_WIDTH = 720
+
+PRODUCTS = ("singlet", "triplet")
+
+
+@dataclass(frozen=True)
+class ShotInputs:
+    """Kernel inputs for one field, pose, layout and response."""
+
+    R_eye_head: np.ndarray
+    eye_params: np.ndarray
+    b_eye: np.ndarray
+    lut: np.ndarray
+    R_head_world: np.ndarray
+    b_head_unit: np.ndarray
+    total_T: float
+
+
+def response_lut(response, product="singlet", n=LUT_SIZE) -> np.ndarray:
+    """The receptor signal table: f, or 1 − f if the triplet product drives vision."""
+    if product not in PRODUCTS:
+        raise MagretinaError(f"product = {product!r}: allowed {', '.join(PRODUCTS)}")
+    if not getattr(response, "axial", True):
+        response = response.axial_average()
+    lut = np.ascontiguousarray(response.lut(n), dtype=np.float64)
+    if not np.all(np.isfinite(lut)):
+        raise MagretinaError("the response gives non-finite values somewhere in cos θ ∈ [-1, 1]")
+    return 1.0 - lut if product == "triplet" else lut
+
+
+def prepare(field, pose, layout, response, product="singlet") -> ShotInputs:
+    """Pack the per-shot kernel inputs.
+
+    With a zero field the axial response has no direction to respond to; the
+    receptors then all give the response's spherical mean (no pattern).
+    """
+    R_eye_head, eye_params = kernels.pack_eyes(layout)
+    lut = response_lut(response, product)
+    R_head_world = pose.R_head_world
+    b = np.asarray(field.ned_T, float)
+    total = float(np.linalg.norm(b))
+    if total == 0.0:
+        lut = np.full_like(lut, float(np.mean(0.5 * (lut[1:] + lut[:-1]))))
+        b_head = np.array([0.0, 0.0, 1.0])
+    else:
+        b_head = R_head_world @ (b / total)
+    b_eye = np.ascontiguousarray(np.einsum("eij,j->ei", R_eye_head, b_head))
+    return ShotInputs(R_eye_head, eye_params, b_eye, lut, R_head_world, b_head, total)
+
+
+def _R_head_view(view, inputs: ShotInputs):
+    if view.frame == "world":
+        return inputs.R_head_world
+    if view.frame == "head":
+        return np.eye(3)
+    raise MagretinaError(f"view frame {view.frame!r} unknown")
+
+
+def _pick(view, layout) -> int:
+    return -1 if view.pick is None else layout.eye_index(view.pick)
+
+
+def _signal_map(inputs, view, layout, lut) -> np.ndarray:
+    H, W = view.shape
+    M = np.ascontiguousarray(_R_head_view(view, inputs))
+    pick = _pick(view, layout)
+    if view.equirect:
+        out = np.empty((H, W))
+        kernels.pattern_equirect(*view.tables(), M, inputs.R_eye_head, inputs.eye_params,
+                                 inputs.b_eye, lut, pick, out)
+        return out
+    dirs = np.ascontiguousarray(view.directions(layout).reshape(-1, 3))
+    out = np.empty(dirs.shape[0])
+    kernels.pattern_dirs(dirs, M, inputs.R_eye_head, inputs.eye_params, inputs.b_eye, lut, pick,
+                         out)
+    return out.reshape(H, W)
+
+
+def visual_field_mean(inputs: ShotInputs, width=MEAN_GRID_WIDTH) -> float:
+    """Solid-angle-weighted mean signal over every direction some eye sees."""
+    from .views.panorama import HeadPanorama
+
+    view = HeadPanorama(width)
+    s = np.empty(view.shape)
+    kernels.pattern_equirect(*view.tables(), np.eye(3), inputs.R_eye_head, inputs.eye_params,
+                             inputs.b_eye, inputs.lut, -1, s)
+    w = view.solid_angle()
+    seen = ~np.isnan(s)
+    if not seen.any():
+        raise MagretinaError("no eye of the layout sees any direction")
+    return float(np.sum(np.where(seen, s, 0.0) * w) / np.sum(w[seen]))
+
+
+def render_pattern(field, pose, layout, response, view) -> np.ndarray:
+    """The response value f(cos θ) at each pixel, before normalisation.
+
+    Parameters
+    ----------
+    field : FieldVector
+    pose : Pose
+    layout : Layout
+    response : response object (axial, or full: its axial average is used)
+    view : View
+
+    Returns
+    -------
+    ndarray, (H, W) float64
+        NaN where no eye sees; where two eyes see a pixel, the mean of their values
+        unless the view picks one eye.
+    """
+    inputs = prepare(field, pose, layout, response, "singlet")
+    return _signal_map(inputs, view, layout, inputs.lut)
+
+
+def render_signal(field, pose, layout, response, view, product="singlet"):
+    """(signal map (H, W), visual-field mean signal): the inputs of the modulation."""
+    inputs = prepare(field, pose, layout, response, product)
+    return _signal_map(inputs, view, layout, inputs.lut), visual_field_mean(inputs)
+
+
+def render(field, pose, layout, response, view, scene=None, gain=0.1, product="singlet",
+           outside=0.25) -> np.ndarray:
+    """Composite the modulation pattern onto a scene.
+
+    Parameters
+    ----------
+    field, pose, layout, response, view
+        As :func:`render_pattern`.
+    scene : Scene, str path, or None
+        A 2:1 world panorama (None: the procedural dusk scene at the view's width
+        or 2048, whichever is larger).
+    gain : float
+        Modulation gain: m = gain·(s/⟨s⟩ − 1), ⟨s⟩ the visual-field mean signal.
+    product : "singlet" or "triplet"
+        Which reaction product drives the visual signal (s = f or 1 − f).
+    outside : float
+        Luminance factor for pixels no eye sees (0 black, 1 scene unchanged).
+
+    Returns
+    -------
+    ndarray, (H, W, 3) float32 linear light in [0, 1]
+        (Pixels outside a non-rectangular view's footprint are 0.)
+    """
+    from .scene import Scene, dusk
+
+    if scene is None:
+        scene = dusk(max(2048, view.shape[1] if view.equirect else 2048))
+    elif not isinstance(scene, Scene):
+        scene = Scene.load(scene)
+    g = float(gain)
+    if not np.isfinite(g) or g < 0:
+        raise MagretinaError(f"gain = {gain!r}: must be a finite number >= 0")
+    o = float(outside)
+    if not 0.0 <= o <= 1.0:
+        raise MagretinaError(f"outside = {outside!r}: allowed [0, 1]")
+    inputs = prepare(field, pose, layout, response, product)
+    mean = visual_field_mean(inputs)
+    if mean == 0.0:
+        raise MagretinaError("the mean signal over the visual field is 0; modulation undefined")
+    return composite_inputs(inputs, mean, layout, view, scene, g, o)
+
+
+def composite_inputs(inputs, mean, layout, view, scene, gain, outside) -> np.ndarray:
+    """Composite with prepared inputs (the study runner reuses ``inputs``)."""
+    H, W = view.shape
+    M = np.ascontiguousarray(_R_head_view(view, inputs))
+    Q = np.ascontiguousarray(inputs.R_head_world.T @ M)  # R_world_view
+    pick = _pick(view, layout)
+    img = scene.image
+    out = np.empty((H, W, img.shape[2]), np.float32)
+    inv_mean = 1.0 / mean
+    if view.equirect:
+        tables = view.tables()
+        if view.frame == "world" and img.shape[:2] == (H, W) and scene.north_col == W / 2.0:
+            kernels.composite_world_aligned(img, *tables, M, inputs.R_eye_head, inputs.eye_params,
+                                            inputs.b_eye, inputs.lut, pick, inv_mean, gain, outside,
+                                            out)
+        else:
+            kernels.composite_resampled(img, scene.north_col, *tables, M, Q, inputs.R_eye_head,
+                                        inputs.eye_params, inputs.b_eye, inputs.lut, pick,
+                                        inv_mean, gain, outside, out)
+        return out
+    dirs = np.ascontiguousarray(view.directions(layout).reshape(-1, 3))
+    flat = out.reshape(-1, img.shape[2])
+    kernels.composite_dirs(img, scene.north_col, dirs, M, Q, inputs.R_eye_head, inputs.eye_params,
+                           inputs.b_eye, inputs.lut, pick, inv_mean, gain, outside, flat)
+    return out

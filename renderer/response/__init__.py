@@ -1,0 +1,16 @@
+"""Angular responses of one receptor (see :mod:`renderer.response.base`).
+
+Registry: ``REGISTRY`` maps a response kind used in configuration files to its class.
+Adding a response model is one new file here and one line in the registry.
+"""
+
+from .base import LUT_SIZE, AxialResponse, lut_nodes
+from .legendre import Legendre
+from .tabulated import Tabulated
+
+REGISTRY = {
+    "legendre": Legendre,
+    "tabulated": Tabulated,
+}
+
+__all__ = ["AxialResponse", "Legendre", "Tabulated", "LUT_SIZE", "lut_nodes", "REGISTRY"]

@@ -1,0 +1,255 @@
+"""Radical-pair definition files (TOML) and the bundled presets.
+
+A definition file states one radical pair in the trade's units.  Format
+(``format = "magretina-radical-pair/1"``; every key not listed is an error)::
+
+    format = "magretina-radical-pair/1"
+    name = "my-pair"                  # optional label
+    description = "..."               # optional free text
+    source = "..."                    # literature source(s) of the numbers
+    axis_convention = "..."           # how the molecular frame is defined
+
+    [pair]                            # optional; every key optional
+    k_s = 1e6                         # s^-1 (a caller may override)
+    k_t = 1e6                         # s^-1, defaults to k_s
+    exchange_mT = 0.0                 # J in H = -2J S_A.S_B
+    dipolar_mT = [[...], [...], [...]]    # or:
+    dipolar_distance_nm = 2.0             #   point dipole along
+    dipolar_direction = [0, 0, 1]         #   this molecular-frame vector
+    initial = "singlet"               # "triplet" or a singlet fraction in [0, 1]
+
+    [radical_a]                       # and [radical_b], same keys
+    name = "FAD"
+    g = 2.0023                        # optional; free electron if omitted
+
+    [[radical_a.nuclei]]              # zero or more
+    name = "N5"
+    spin = 1
+    # exactly one of:
+    hyperfine_mT = [[...], [...], [...]]   # full tensor, molecular frame
+    isotropic_mT = 0.52                    # a * identity
+    principal_mT = [Axx, Ayy, Azz]         # principal values, optionally rotated by
+    rotation_axis = [1, 0, 0]              #   a rotation about this axis
+    rotation_deg = 45.0                    #   by this angle (right-handed), or
+    euler_zyz_deg = [0, 45, 0]             #   intrinsic z-y'-z'' Euler angles
+    gamma_MHz_T = 3.077                    # optional: include nuclear Zeeman, γ/2π
+    source = "..."                         # optional note
+
+Presets are such files in ``renderer/spin/presets/``; a preset's name is its file
+stem.  This module parses and validates; it computes nothing.
+"""
+
+from __future__ import annotations
+
+import math
+import os
+import tomllib
+from importlib import resources
+
+import numpy as np
+from scipy.spatial.transform import Rotation
+
+from ..errors import ConfigError, MagretinaError
+from .system import Nucleus, Radical, RadicalPair, point_dipolar_mT
+
+FORMAT = "magretina-radical-pair/1"
+_TOP = {"format", "name", "description", "source", "axis_convention", "pair", "radical_a",
+        "radical_b"}
+_PAIR = {"k_s", "k_t", "exchange_mT", "dipolar_mT", "dipolar_distance_nm", "dipolar_direction",
+         "initial"}
+_RADICAL = {"name", "g", "nuclei", "source"}
+_NUCLEUS = {"name", "spin", "hyperfine_mT", "isotropic_mT", "principal_mT", "rotation_axis",
+            "rotation_deg", "euler_zyz_deg", "gamma_MHz_T", "source"}
+
+
+def _unknown(table, allowed, where, problems):
+    for key in table:
+        if key not in allowed:
+            problems.append(f"{where}: unknown key {key!r}; allowed: {', '.join(sorted(allowed))}")
+
+
+def _nucleus(d, where, problems):
+    if not isinstance(d, dict):
+        problems.append(f"{where}: must be a table, got {d!r}")
+        return None
+    _unknown(d, _NUCLEUS, where, problems)
+    name = str(d.get("name", ""))
+    if "spin" not in d:
+        problems.append(f"{where}: missing key 'spin' (nuclear spin quantum number, e.g. 0.5 or 1)")
+        return None
+    forms = [k for k in ("hyperfine_mT", "isotropic_mT", "principal_mT") if k in d]
+    if len(forms) != 1:
+        problems.append(f"{where}: give exactly one of hyperfine_mT, isotropic_mT, principal_mT "
+                        f"(found {forms or 'none'})")
+        return None
+    gamma = 0.0
+    try:
+        if "gamma_MHz_T" in d:
+            gamma = 2 * math.pi * 1e6 * float(d["gamma_MHz_T"])
+        if forms[0] != "principal_mT" and any(k in d for k in ("rotation_axis", "rotation_deg",
+                                                               "euler_zyz_deg")):
+            problems.append(f"{where}: rotation keys apply only with principal_mT")
+            return None
+        if forms[0] == "hyperfine_mT":
+            return Nucleus(d["spin"], d["hyperfine_mT"], name=name, gamma_rad_s_T=gamma)
+        if forms[0] == "isotropic_mT":
+            return Nucleus.isotropic(d["spin"], float(d["isotropic_mT"]), name=name,
+                                     gamma_rad_s_T=gamma)
+        rot = None
+        if "euler_zyz_deg" in d:
+            if "rotation_axis" in d or "rotation_deg" in d:
+                problems.append(f"{where}: give euler_zyz_deg or rotation_axis+rotation_deg, not both")
+                return None
+            e = np.asarray(d["euler_zyz_deg"], dtype=float)
+            if e.shape != (3,):
+                raise MagretinaError(f"euler_zyz_deg must be three angles, got {d['euler_zyz_deg']!r}")
+            rot = Rotation.from_euler("ZYZ", e, degrees=True)
+        elif "rotation_axis" in d or "rotation_deg" in d:
+            if not ("rotation_axis" in d and "rotation_deg" in d):
+                problems.append(f"{where}: rotation_axis and rotation_deg go together")
+                return None
+            ax = np.asarray(d["rotation_axis"], dtype=float)
+            if ax.shape != (3,) or not np.all(np.isfinite(ax)) or np.linalg.norm(ax) == 0:
+                raise MagretinaError(f"rotation_axis must be a non-zero 3-vector, got "
+                                     f"{d['rotation_axis']!r}")
+            rot = Rotation.from_rotvec(ax / np.linalg.norm(ax) * math.radians(float(d["rotation_deg"])))
+        return Nucleus.from_principal(d["spin"], d["principal_mT"], rot, name=name, gamma_rad_s_T=gamma)
+    except (MagretinaError, TypeError, ValueError) as exc:
+        problems.append(f"{where}: {exc}")
+        return None
+
+
+def _radical(d, where, problems):
+    if d is None:
+        return Radical()
+    if not isinstance(d, dict):
+        problems.append(f"{where}: must be a table")
+        return None
+    _unknown(d, _RADICAL, where, problems)
+    nuc_list = d.get("nuclei", [])
+    if not isinstance(nuc_list, list):
+        problems.append(f"{where}.nuclei: must be an array of tables ([[{where}.nuclei]])")
+        return None
+    nuclei = [_nucleus(n, f"{where}.nuclei[{i}]" + (f" ({n.get('name')})" if isinstance(n, dict)
+                                                    and n.get("name") else ""), problems)
+              for i, n in enumerate(nuc_list)]
+    kw = {"name": str(d.get("name", ""))}
+    if "g" in d:
+        kw["g"] = d["g"]
+    try:
+        return Radical([n for n in nuclei if n is not None], **kw)
+    except MagretinaError as exc:
+        problems.append(f"{where}: {exc}")
+        return None
+
+
+def parse_definition(data: dict, source="definition", k_s=None, k_t=None) -> RadicalPair:
+    """Build a RadicalPair from a parsed TOML table; all problems are reported at once.
+
+    Parameters
+    ----------
+    data : dict
+        The parsed file.
+    source : str
+        File name used in messages.
+    k_s, k_t : float, optional
+        Rates (s⁻¹) that override the file's ``[pair]`` values; k_t defaults to k_s.
+    """
+    problems = []
+    _unknown(data, _TOP, "top level", problems)
+    fmt = data.get("format", FORMAT)
+    if fmt != FORMAT:
+        problems.append(f"format = {fmt!r} is not supported; expected {FORMAT!r}")
+    pair_t = data.get("pair", {})
+    if not isinstance(pair_t, dict):
+        problems.append("[pair] must be a table")
+        pair_t = {}
+    _unknown(pair_t, _PAIR, "[pair]", problems)
+    a = _radical(data.get("radical_a"), "radical_a", problems)
+    b = _radical(data.get("radical_b"), "radical_b", problems)
+    ks = k_s if k_s is not None else pair_t.get("k_s")
+    if ks is None:
+        problems.append("no singlet rate: give k_s in [pair] or on the command line (--k-s)")
+    kt = k_t if k_t is not None else (pair_t.get("k_t") if k_s is None else None)
+    if kt is None:
+        kt = ks
+    dip = None
+    if "dipolar_mT" in pair_t and "dipolar_distance_nm" in pair_t:
+        problems.append("[pair]: give dipolar_mT or dipolar_distance_nm, not both")
+    elif "dipolar_distance_nm" in pair_t:
+        try:
+            dip = point_dipolar_mT(pair_t["dipolar_distance_nm"],
+                                   pair_t.get("dipolar_direction", (0.0, 0.0, 1.0)))
+        except (MagretinaError, TypeError, ValueError) as exc:
+            problems.append(f"[pair]: {exc}")
+    elif "dipolar_mT" in pair_t:
+        dip = pair_t["dipolar_mT"]
+    if "dipolar_direction" in pair_t and "dipolar_distance_nm" not in pair_t:
+        problems.append("[pair]: dipolar_direction needs dipolar_distance_nm")
+    pair = None
+    if not problems:
+        try:
+            pair = RadicalPair(a, b, k_s=ks, k_t=kt, exchange_mT=pair_t.get("exchange_mT", 0.0),
+                               dipolar_mT=dip, initial=pair_t.get("initial", "singlet"))
+        except (MagretinaError, TypeError, ValueError) as exc:
+            problems.append(str(exc))
+    if problems:
+        raise ConfigError(problems, source=source)
+    return pair
+
+
+def read_definition(path, k_s=None, k_t=None) -> RadicalPair:
+    """Read a radical-pair definition file (TOML); see the module docstring for the format."""
+    path = os.fspath(path)
+    try:
+        with open(path, "rb") as fh:
+            data = tomllib.load(fh)
+    except OSError as exc:
+        raise MagretinaError(f"radical-pair definition {path}: cannot read ({exc.strerror})") from None
+    except tomllib.TOMLDecodeError as exc:
+        raise MagretinaError(f"radical-pair definition {path}: not valid TOML ({exc})") from None
+    return parse_definition(data, source=path, k_s=k_s, k_t=k_t)
+
+
+def _preset_dir():
+    return resources.files(__package__).joinpath("presets")
+
+
+def list_presets() -> list:
+    """Names of the bundled presets (file stems in renderer/spin/presets/)."""
+    return sorted(p.name[:-5] for p in _preset_dir().iterdir() if p.name.endswith(".toml"))
+
+
+def preset_path(name: str) -> str:
+    """File path of a bundled preset; MagretinaError naming the choices if unknown."""
+    p = _preset_dir().joinpath(f"{name}.toml")
+    if not p.is_file():
+        raise MagretinaError(f"unknown radical-pair preset {name!r}; available: "
+                             + ", ".join(list_presets()))
+    return os.fspath(p)
+
+
+def preset_metadata(name_or_path: str) -> dict:
+    """Top-level text fields (name, description, source, axis_convention) of a file or preset."""
+    path = name_or_path if os.path.isfile(name_or_path) else preset_path(name_or_path)
+    with open(path, "rb") as fh:
+        data = tomllib.load(fh)
+    return {k: data[k] for k in ("name", "description", "source", "axis_convention") if k in data}
+
+
+def load_pair(name_or_path, k_s=None, k_t=None) -> RadicalPair:
+    """A RadicalPair from a definition file path or a preset name.
+
+    Parameters
+    ----------
+    name_or_path : str or path
+        An existing file, or the name of a bundled preset (see :func:`list_presets`).
+    k_s, k_t : float, optional
+        Rates (s⁻¹) overriding the file's; k_t defaults to k_s when k_s is given.
+    """
+    s = os.fspath(name_or_path)
+    if os.path.isfile(s):
+        return read_definition(s, k_s=k_s, k_t=k_t)
+    if s.endswith(".toml") or os.sep in s:
+        raise MagretinaError(f"radical-pair definition {s}: no such file")
+    return read_definition(preset_path(s), k_s=k_s, k_t=k_t)

@@ -1,0 +1,17 @@
+"""Views: which picture is drawn and where each pixel looks.
+
+``REGISTRY`` maps view names used in configuration files to classes; adding a view
+is one new file and one line here.
+"""
+
+from .base import View
+from .eyedisc import EyeDisc
+from .panorama import HeadPanorama, WorldPanorama
+
+REGISTRY = {
+    "world-panorama": WorldPanorama,
+    "head-panorama": HeadPanorama,
+    "eye-disc": EyeDisc,
+}
+
+__all__ = ["View", "WorldPanorama", "HeadPanorama", "EyeDisc", "REGISTRY"]
