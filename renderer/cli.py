@@ -20,6 +20,7 @@ COMMANDS = [
     "demo",
     "field",
     "render",
+    "response",
 ]
 
 

@@ -56,12 +56,41 @@ def _jsonable(o):
 
 
 def png_bytes(array) -> bytes:
-    """Encode a uint8 or uint16 (H, W[, C]) array as PNG bytes (imageio/pillow)."""
+    """Encode a uint8 or uint16 (H, W[, C]) array as PNG bytes.
+
+    8-bit goes through imageio/Pillow; 16-bit through pypng, because Pillow cannot
+    write (or read back) 16-bit RGB.  No gamma or sRGB chunk is written.
+    """
+    a = np.asarray(array)
+    buf = io.BytesIO()
+    if a.dtype == np.uint16:
+        import png
+
+        H, W = a.shape[:2]
+        C = 1 if a.ndim == 2 else a.shape[2]
+        png.Writer(W, H, greyscale=(C == 1), alpha=(C in (2, 4)), bitdepth=16,
+                   compression=6).write(buf, a.reshape(H, W * C))
+        return buf.getvalue()
+    if a.dtype != np.uint8:
+        raise TypeError(f"png_bytes needs uint8 or uint16, got {a.dtype}")
     import imageio.v3 as iio
 
-    buf = io.BytesIO()
-    iio.imwrite(buf, np.asarray(array), extension=".png")
+    iio.imwrite(buf, a, extension=".png")
     return buf.getvalue()
+
+
+def _read_png16(path):
+    """Read a PNG with pypng if it is 16-bit (Pillow would reduce it to 8-bit); else None."""
+    import png
+
+    with open(path, "rb") as fh:
+        head = fh.read(33)
+    if head[:8] != b"\x89PNG\r\n\x1a\n" or head[24] != 16:
+        return None
+    W, H, rows, info = png.Reader(filename=path).read()
+    planes = info["planes"]
+    a = np.vstack([np.asarray(r, dtype=np.uint16) for r in rows]).reshape(H, W, planes)
+    return a
 
 
 def write_png8_srgb(path, lin) -> str:
@@ -92,7 +121,9 @@ def read_image_linear(path) -> np.ndarray:
     if not os.path.isfile(p):
         raise MagretinaError(f"image {p}: no such file")
     try:
-        img = iio.imread(p)
+        img = _read_png16(p)
+        if img is None:
+            img = iio.imread(p)
     except Exception as exc:  # imageio raises many types for corrupt files
         raise MagretinaError(f"image {p}: cannot be decoded as an image ({type(exc).__name__}: "
                              f"{exc})") from None

@@ -34,6 +34,10 @@ A definition file states one radical pair in the trade's units.  Format
     euler_zyz_deg = [0, 45, 0]             #   intrinsic z-y'-z'' Euler angles
     gamma_MHz_T = 3.077                    # optional: include nuclear Zeeman, γ/2π
     source = "..."                         # optional note
+    label = "..."                          # optional atom label used by the source
+
+Short forms, accepted for compact files: ``[a]``/``[b]`` for ``[radical_a]``/``[radical_b]``
+and top-level ``k_s``/``k_t`` for the ``[pair]`` keys (giving both spellings is an error).
 
 Presets are such files in ``renderer/spin/presets/``; a preset's name is its file
 stem.  This module parses and validates; it computes nothing.
@@ -54,12 +58,12 @@ from .system import Nucleus, Radical, RadicalPair, point_dipolar_mT
 
 FORMAT = "magretina-radical-pair/1"
 _TOP = {"format", "name", "description", "source", "axis_convention", "pair", "radical_a",
-        "radical_b"}
+        "radical_b", "a", "b", "k_s", "k_t"}
 _PAIR = {"k_s", "k_t", "exchange_mT", "dipolar_mT", "dipolar_distance_nm", "dipolar_direction",
          "initial"}
 _RADICAL = {"name", "g", "nuclei", "source"}
 _NUCLEUS = {"name", "spin", "hyperfine_mT", "isotropic_mT", "principal_mT", "rotation_axis",
-            "rotation_deg", "euler_zyz_deg", "gamma_MHz_T", "source"}
+            "rotation_deg", "euler_zyz_deg", "gamma_MHz_T", "source", "label"}
 
 
 def _unknown(table, allowed, where, problems):
@@ -165,8 +169,19 @@ def parse_definition(data: dict, source="definition", k_s=None, k_t=None) -> Rad
         problems.append("[pair] must be a table")
         pair_t = {}
     _unknown(pair_t, _PAIR, "[pair]", problems)
-    a = _radical(data.get("radical_a"), "radical_a", problems)
-    b = _radical(data.get("radical_b"), "radical_b", problems)
+    pair_t = dict(pair_t)
+    for key in ("k_s", "k_t"):
+        if key in data:
+            if key in pair_t:
+                problems.append(f"{key} is given both at top level and in [pair]; keep one")
+            pair_t[key] = data[key]
+    rad = {}
+    for long, short in (("radical_a", "a"), ("radical_b", "b")):
+        if long in data and short in data:
+            problems.append(f"[{long}] and [{short}] are the same radical; keep one")
+        key = long if long in data else short
+        rad[long] = _radical(data.get(key), key, problems)
+    a, b = rad["radical_a"], rad["radical_b"]
     ks = k_s if k_s is not None else pair_t.get("k_s")
     if ks is None:
         problems.append("no singlet rate: give k_s in [pair] or on the command line (--k-s)")

@@ -1,0 +1,169 @@
+"""``magretina response``: compute and inspect radical-pair response tables.
+
+Subcommands: ``compute`` (a definition file or preset → full-sphere singlet-yield
+table, with a progress bar), ``show`` (summary of a table and a plot written beside
+it), ``presets`` (list bundled radical-pair presets) and ``clear-cache``.  All the
+work is in :mod:`renderer.response.spin_table` and :mod:`renderer.spin`; this module
+only parses arguments and prints.
+"""
+
+from __future__ import annotations
+
+import os
+from pathlib import Path
+
+from ..errors import MagretinaError, check_range
+
+HYPOTHESIS_NOTE = ("Model prediction of the radical-pair hypothesis for the stated parameters; "
+                   "not a measurement of any receptor or animal.")
+
+
+def register(subparsers):
+    p = subparsers.add_parser("response", help="radical-pair angular response tables",
+                              description="Compute and inspect singlet-yield response tables of "
+                                          "radical pairs. " + HYPOTHESIS_NOTE)
+    sub = p.add_subparsers(dest="response_command", metavar="ACTION")
+    sub.required = True
+
+    c = sub.add_parser("compute", help="compute a full-sphere table from a definition or preset")
+    c.add_argument("pair", metavar="DEF_OR_PRESET",
+                   help="radical-pair definition file (TOML) or preset name (see 'response presets')")
+    c.add_argument("--field-uT", type=float, required=True, help="field magnitude |B| in microtesla")
+    c.add_argument("--k-s", type=float, default=None, help="singlet recombination rate, s^-1 "
+                                                            "(default: the file's)")
+    c.add_argument("--k-t", type=float, default=None, help="triplet rate, s^-1 (default: k_s)")
+    c.add_argument("--lmax", type=int, default=16, help="highest spherical-harmonic degree (even)")
+    c.add_argument("--method", default="auto",
+                   choices=["auto", "separable", "eigenbasis", "liouville"], help="spin solver")
+    c.add_argument("--no-cache", action="store_true", help="neither read nor write the disk cache")
+    c.add_argument("--out", required=True, metavar="TABLE", help="output table file (.npz)")
+    c.set_defaults(func=cmd_compute)
+
+    s = sub.add_parser("show", help="print a table's summary and write a plot beside it")
+    s.add_argument("table", metavar="TABLE")
+    s.add_argument("--plot", default=None, help="plot file (default: TABLE with suffix .png)")
+    s.set_defaults(func=cmd_show)
+
+    ls = sub.add_parser("presets", help="list the bundled radical-pair presets")
+    ls.set_defaults(func=cmd_presets)
+
+    cc = sub.add_parser("clear-cache", help="delete cached response tables")
+    cc.set_defaults(func=cmd_clear_cache)
+    return p
+
+
+def cmd_compute(args) -> int:
+    from tqdm import tqdm
+
+    from ..response.harmonic import lebedev_grid, lebedev_order_for
+    from ..response.spin_table import compute_spin_table
+    from ..spin import choose_method
+    from ..spin.definition import load_pair, preset_metadata
+
+    field_uT = check_range("--field-uT", args.field_uT, 0.0, 1e9, lo_open=True, unit="uT")
+    if args.k_s is not None:
+        check_range("--k-s", args.k_s, 0.0, None, lo_open=True, unit="s^-1")
+    if args.k_t is not None:
+        if args.k_s is None:
+            raise MagretinaError("--k-t needs --k-s as well")
+        check_range("--k-t", args.k_t, 0.0, None, unit="s^-1")
+    if args.lmax < 0 or args.lmax % 2 or args.lmax > 64:
+        raise MagretinaError(f"--lmax = {args.lmax} is not allowed; use an even degree in [0, 64]")
+    pair = load_pair(args.pair, k_s=args.k_s, k_t=args.k_t)
+    info = preset_metadata(args.pair)
+    method = choose_method(pair, args.method)
+    n_nodes = len(lebedev_grid(lebedev_order_for(2 * args.lmax + 5))[0])
+    print(f"radical pair {info.get('name', args.pair)}: Hilbert dimension {pair.dim}, "
+          f"k_s = {pair.k_s:g} s^-1, k_t = {pair.k_t:g} s^-1, solver '{method}', "
+          f"{n_nodes} directions ({n_nodes // 2} solved, inversion symmetry)")
+    meta = {"pair_input": os.fspath(args.pair), **{f"pair_{k}": v for k, v in info.items()}}
+    with tqdm(total=n_nodes, unit="dir", desc="directions") as bar:
+        table = compute_spin_table(pair, field_uT * 1e-6, lmax=args.lmax, method=method,
+                                   use_cache=not args.no_cache, progress=bar.update, meta=meta)
+    out = table.save(args.out)
+    _print_summary(table)
+    print(f"wrote {out}")
+    return 0
+
+
+def _print_summary(table):
+    s = table.summary()
+    print(f"field |B| = {s['field_uT']:g} uT, l_max = {s['lmax']}, "
+          f"solver '{table.meta.get('method')}', Hilbert dimension {table.meta.get('dim')}")
+    print(f"singlet yield: mean {s['mean']:.6f}, min {s['min']:.6f}, max {s['max']:.6f}, "
+          f"anisotropy (max - min) {s['anisotropy']:.6f}")
+    print(f"minimum at theta = {s['argmin_theta_deg']:.2f} deg, phi = {s['argmin_phi_deg']:.2f} deg; "
+          f"maximum at theta = {s['argmax_theta_deg']:.2f} deg, phi = {s['argmax_phi_deg']:.2f} deg "
+          f"(molecular frame; theta from z, phi from x towards y)")
+    rr, rm = s.get("residual_rms"), s.get("residual_max")
+    if rr is not None:
+        rel = rm / s["anisotropy"] if s["anisotropy"] > 0 else float("nan")
+        print(f"fit residual at the {table.meta.get('n_directions')} nodes: rms {rr:.3g}, "
+              f"max {rm:.3g} ({rel:.2%} of the anisotropy); raise --lmax if this is too large")
+    print(HYPOTHESIS_NOTE)
+
+
+def cmd_show(args) -> int:
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+    import numpy as np
+
+    from ..response.spin_table import SpinTable
+
+    if not os.path.isfile(args.table):
+        raise MagretinaError(f"spin table {args.table}: no such file")
+    table = SpinTable.load(args.table)
+    _print_summary(table)
+    plot = Path(args.plot) if args.plot else Path(args.table).with_suffix(".png")
+    lut = table.sphere_lut(181, 361)
+    axial = table.axial_average()
+    fig, (ax1, ax2) = plt.subplots(1, 2, figsize=(11, 4.2), gridspec_kw={"width_ratios": [2, 1]})
+    im = ax1.imshow(lut, extent=[-180, 180, 180, 0], aspect="auto", cmap="viridis")
+    ax1.set_xlabel("field azimuth phi in molecular frame (deg, from x towards y)")
+    ax1.set_ylabel("field polar angle theta from molecular z (deg)")
+    ax1.set_title(f"singlet yield at |B| = {table.field_T * 1e6:g} uT")
+    fig.colorbar(im, ax=ax1, label="Phi_S")
+    th = np.linspace(0, 180, 361)
+    ax2.plot(th, axial(np.cos(np.radians(th))))
+    ax2.set_xlabel("theta (deg)")
+    ax2.set_ylabel("Phi_S averaged over rotation about z")
+    ax2.set_title("axial average")
+    fig.text(0.5, 0.005, HYPOTHESIS_NOTE, ha="center", va="bottom", fontsize=7)
+    fig.tight_layout(rect=(0, 0.03, 1, 1))
+    plot.parent.mkdir(parents=True, exist_ok=True)
+    tmp = plot.with_name(f".{plot.name}.{os.getpid()}.tmp")
+    try:
+        fig.savefig(tmp, dpi=110, format=plot.suffix.lstrip(".") or "png")
+        os.replace(tmp, plot)
+    finally:
+        plt.close(fig)
+        if tmp.exists():
+            tmp.unlink()
+    print(f"wrote {plot}")
+    return 0
+
+
+def cmd_presets(args) -> int:
+    from ..spin.definition import list_presets, load_pair, preset_metadata
+
+    for name in list_presets():
+        try:
+            pair = load_pair(name)
+            dim = pair.dim
+        except MagretinaError as exc:
+            print(f"{name}: cannot be loaded ({exc})")
+            continue
+        desc = preset_metadata(name).get("description", "")
+        print(f"{name}  (Hilbert dimension {dim})  {desc}")
+    return 0
+
+
+def cmd_clear_cache(args) -> int:
+    from ..response import cache
+    from ..response.spin_table import CACHE_KIND
+
+    n = cache.clear_cache(CACHE_KIND)
+    print(f"removed {n} cached table(s) from {cache.cache_root() / CACHE_KIND}")
+    return 0

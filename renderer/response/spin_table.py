@@ -1,0 +1,216 @@
+"""Full-sphere response tables of a radical pair's singlet yield at a given |B|.
+
+A table is Φ_S(|B| d) for unit field directions d in the molecular frame, sampled on
+a Lebedev grid (``scipy.integrate.lebedev_rule``) and projected onto real even
+spherical harmonics up to degree L (:mod:`.harmonic`).  Time reversal gives
+Φ_S(B) = Φ_S(−B), and Lebedev grids are inversion-symmetric, so only one node of
+each antipodal pair is solved.  The fit residual at the nodes (rms and max) is kept
+so a user can see whether L is enough.  Results are cached on disk by a hash of every
+parameter (:mod:`.cache`).  Tables are model predictions, not measurements.  This
+module does not do spin dynamics itself (:mod:`renderer.spin`).
+"""
+
+from __future__ import annotations
+
+import datetime as _dt
+import math
+
+import numpy as np
+
+from ..errors import MagretinaError
+from . import cache
+from .harmonic import (SphericalHarmonic, degrees, dirs_to_angles, fit_quadrature,
+                       lebedev_grid, lebedev_order_for, real_sph_harm)
+
+#: Bump when the table contents for identical parameters would change.
+TABLE_VERSION = 1
+CACHE_KIND = "spin-tables"
+DEFAULT_LMAX = 16
+
+
+def antipodal_pairs(nodes, tol=1e-10):
+    """Indices (keep, partner) with nodes[partner] = −nodes[keep], covering every node once.
+
+    Raises if the grid is not inversion-symmetric.
+    """
+    n = len(nodes)
+    key = np.round(nodes / tol).astype(np.int64)
+    where = {tuple(k): i for i, k in enumerate(key)}
+    partner = np.empty(n, dtype=np.int64)
+    for i, k in enumerate(key):
+        j = where.get(tuple(-k))
+        if j is None:  # round-off may land on a neighbouring integer; fall back to search
+            j = int(np.argmin(np.linalg.norm(nodes + nodes[i], axis=1)))
+            if np.linalg.norm(nodes[j] + nodes[i]) > 1e3 * tol:
+                raise ValueError("grid is not inversion-symmetric")
+        partner[i] = j
+    keep = np.array([i for i in range(n) if i <= partner[i]], dtype=np.int64)
+    return keep, partner[keep]
+
+
+class SpinTable(SphericalHarmonic):
+    """Singlet-yield table Φ_S(d) at fixed |B|, as real even spherical harmonics.
+
+    Construct with :func:`compute_spin_table` or :meth:`load` (``SpinTable(path=...)``
+    is the same as ``SpinTable.load(path)``, for configuration files).
+
+    Attributes
+    ----------
+    coeffs : ndarray ((L+1)²,)
+    nodes : ndarray (N, 3)
+        Lebedev directions where Φ_S was solved (molecular frame).
+    values : ndarray (N,)
+        Φ_S at the nodes.
+    meta : dict
+        Parameters and provenance: field_T, pair description, method, lmax,
+        lebedev_order, residual_rms, residual_max, cache key, source text.
+    """
+
+    def __init__(self, coeffs=None, *, nodes=None, values=None, meta=None, path=None):
+        if path is not None:
+            other = SpinTable.load(path)
+            coeffs, nodes, values, meta = other.coeffs, other.nodes, other.values, other.meta
+        if coeffs is None:
+            raise MagretinaError("SpinTable needs coefficients or path=")
+        super().__init__(coeffs)
+        self.nodes = None if nodes is None else np.asarray(nodes, dtype=np.float64)
+        self.values = None if values is None else np.asarray(values, dtype=np.float64)
+        self.meta = dict(meta or {})
+
+    @property
+    def field_T(self) -> float:
+        return float(self.meta.get("field_T", float("nan")))
+
+    def summary(self) -> dict:
+        """Anisotropy (max − min), directions of the extremes, mean, fit residual."""
+        lo, d_lo, hi, d_hi = self.extremes()
+        th_lo, ph_lo = dirs_to_angles(d_lo[None])
+        th_hi, ph_hi = dirs_to_angles(d_hi[None])
+        out = {
+            "field_uT": self.field_T * 1e6,
+            "lmax": self.lmax,
+            "mean": self.mean(),
+            "min": lo, "max": hi, "anisotropy": hi - lo,
+            "argmin_theta_deg": float(np.degrees(th_lo[0])), "argmin_phi_deg": float(np.degrees(ph_lo[0])),
+            "argmax_theta_deg": float(np.degrees(th_hi[0])), "argmax_phi_deg": float(np.degrees(ph_hi[0])),
+            "residual_rms": self.meta.get("residual_rms"),
+            "residual_max": self.meta.get("residual_max"),
+        }
+        if self.values is not None:
+            out["samples_min"] = float(self.values.min())
+            out["samples_max"] = float(self.values.max())
+            out["samples_anisotropy"] = float(self.values.max() - self.values.min())
+        return out
+
+    def save(self, path):
+        """Write the table (.npz: coeffs, nodes, values, meta JSON) atomically."""
+        arrays = {"coeffs": self.coeffs}
+        if self.nodes is not None:
+            arrays["nodes"] = self.nodes
+            arrays["values"] = self.values
+        return cache.save_npz_atomic(path, arrays, {"format": "magretina-spin-table/1", **self.meta})
+
+    @classmethod
+    def load(cls, path) -> "SpinTable":
+        """Read a table written by :meth:`save`."""
+        try:
+            arrays, meta = cache.load_npz(path)
+        except (OSError, ValueError) as exc:
+            raise MagretinaError(f"spin table {path}: cannot read ({exc})") from None
+        if meta.get("format") != "magretina-spin-table/1" or "coeffs" not in arrays:
+            raise MagretinaError(f"spin table {path}: not a magretina spin table "
+                                 f"(format {meta.get('format')!r})")
+        return cls(arrays["coeffs"], nodes=arrays.get("nodes"), values=arrays.get("values"), meta=meta)
+
+    def describe(self) -> dict:
+        d = {k: v for k, v in self.meta.items() if k != "pair"}
+        return {"kind": "spin-table", "lmax": self.lmax, **d}
+
+    def __repr__(self):
+        return (f"SpinTable(|B| = {self.field_T * 1e6:g} uT, lmax={self.lmax}, mean={self.mean():.6g}, "
+                f"residual_max={self.meta.get('residual_max')})")
+
+
+def table_params(pair, field_T, lmax, order, method) -> dict:
+    """Everything the table depends on (the cache key is the hash of this)."""
+    from ..spin.hamiltonian import GAMMA_E
+
+    return {"table_version": TABLE_VERSION, "gamma_e": GAMMA_E, "pair": pair.describe(),
+            "field_T": float(field_T), "lmax": int(lmax), "lebedev_order": int(order),
+            "method": method}
+
+
+def compute_spin_table(pair, field_T, lmax=DEFAULT_LMAX, order=None, method="auto",
+                       use_cache=True, progress=None, meta=None) -> SpinTable:
+    """Compute (or fetch from the cache) the full-sphere singlet-yield table of a pair.
+
+    Parameters
+    ----------
+    pair : renderer.spin.RadicalPair
+    field_T : float
+        Field magnitude |B| in tesla (> 0; at 0 the table is a constant).
+    lmax : int, even
+        Highest harmonic degree L.
+    order : int, optional
+        Lebedev order; default the smallest ≥ 2L + 5 (exact projection needs ≥ 2L;
+        the margin gives extra nodes for the residual).
+    method : str
+        Spin solver ('auto', 'separable', 'eigenbasis', 'liouville').
+    use_cache : bool
+        Read and write the disk cache.
+    progress : callable, optional
+        Receives the number of directions finished.
+    meta : dict, optional
+        Extra provenance (e.g. preset name and literature source) stored with the table.
+
+    Returns
+    -------
+    SpinTable
+    """
+    from ..spin import choose_method, singlet_yield
+
+    b = float(field_T)
+    if not math.isfinite(b) or b < 0:
+        raise MagretinaError(f"field magnitude = {field_T!r} T is out of range; allowed [0, inf)")
+    lmax = int(lmax)
+    if lmax < 0 or lmax % 2:
+        raise MagretinaError(f"l_max = {lmax} must be an even degree >= 0 (singlet yields are even "
+                             f"in the field direction)")
+    order = lebedev_order_for(2 * lmax + 5) if order is None else int(order)
+    if lebedev_order_for(order) != order or order < 2 * lmax:
+        raise MagretinaError(f"Lebedev order {order} must be an available order >= 2*l_max = "
+                             f"{2 * lmax}")
+    resolved = choose_method(pair, method)
+    params = table_params(pair, b, lmax, order, resolved)
+    key = cache.cache_key(params)
+    extra = dict(meta or {})
+    if use_cache:
+        hit = cache.lookup(CACHE_KIND, key)
+        if hit is not None:
+            arrays, m = hit
+            if progress is not None:
+                progress(len(arrays["nodes"]))
+            m.update(extra)
+            return SpinTable(arrays["coeffs"], nodes=arrays["nodes"], values=arrays["values"],
+                             meta={**m, "from_cache": True})
+    nodes, weights = lebedev_grid(order)
+    keep, partner = antipodal_pairs(nodes)
+    if progress is not None:  # the partner nodes cost nothing
+        progress(len(nodes) - len(keep))
+    vals_keep = np.asarray(singlet_yield(pair, b * nodes[keep], method=resolved, progress=progress))
+    values = np.empty(len(nodes))
+    values[keep] = vals_keep
+    values[partner] = vals_keep
+    coeffs = fit_quadrature(lmax, nodes, weights, values)
+    coeffs[degrees(lmax) % 2 == 1] = 0.0  # zero by symmetry; remove round-off
+    fitted = real_sph_harm(lmax, nodes) @ coeffs
+    resid = fitted - values
+    m = {**params, "cache_key": key, "residual_rms": float(np.sqrt(np.mean(resid**2))),
+         "residual_max": float(np.max(np.abs(resid))), "n_directions": int(len(nodes)),
+         "n_solved": int(len(keep)), "dim": int(pair.dim),
+         "created_utc": _dt.datetime.now(_dt.timezone.utc).isoformat(timespec="seconds"),
+         "note": "model prediction of a radical-pair hypothesis, not a measurement"}
+    if use_cache:
+        cache.store(CACHE_KIND, key, {"coeffs": coeffs, "nodes": nodes, "values": values}, m)
+    m.update(extra)
+    return SpinTable(coeffs, nodes=nodes, values=values, meta=m)
