@@ -1,0 +1,439 @@
+"""The study file: TOML read with ``tomllib``, checked up front, resolved with defaults.
+
+A study file has these tables (each documented in the example written by
+``magretina new-study``)::
+
+    [study]      name, description, seed (master seed of the per-shot SeedSequence)
+    [site]       name, lat_deg, lon_deg, alt_km          (not needed for a fixed field)
+    [field]      model = igrf | dipole | fixed, date; total_uT, inclination_deg,
+                 declination_deg for a fixed field
+    [pose]       yaw_deg, pitch_deg, roll_deg            (the base head pose)
+    [layout]     preset = "lateral" or file = "my_layout.toml"; [layout.eyes.NAME]
+                 overrides any field of the Eye class; other keys any Layout field
+    [response]   kind = a key of renderer.response.REGISTRY, product, csv, and the
+                 constructor keywords of that class; [responses.NAME] alternatives
+                 that a timeline step can switch to
+    [views.NAME] kind = a key of renderer.views.REGISTRY plus that class's fields
+    [scene]      kind = dusk | uniform | file, width, luminance, path, north_col
+    [render]     gain, outside
+    [sequence]   kind = still | heading-sweep | head-scan | route, and its keys
+    [timeline]   steps = [{t_s, action, ...}] (coil manipulations over time)
+    [output]     encodings and exports
+    [metrics]    providers and their options
+    [sweep]      combine = grid | zip, [[sweep.axis]] key, values | range | linspace
+
+:func:`validate` returns the resolved configuration (plain dicts, every default
+filled in, so ``study.json`` states what was run) and collects every problem with
+its key path and the allowed values or range.  Unknown keys are always errors: a
+typo never falls back to a default.  Classes registered by other parts of the
+package (views, responses, eyes) are checked against their own constructor
+fields, so new options pass through without changes here.  This module builds no
+library objects (see :mod:`.build`) and does not expand sweeps (see :mod:`.expand`).
+"""
+
+from __future__ import annotations
+
+import copy
+import datetime as _dt
+import hashlib
+import json
+import os
+import tomllib
+from dataclasses import dataclass
+
+from ..errors import ConfigError, MagretinaError
+from .schema import REQUIRED, Key, check_passthrough, check_table, check_value
+
+FIELD_MODELS = ("igrf", "dipole", "fixed")
+PRODUCTS = ("singlet", "triplet")
+SCENE_KINDS = ("dusk", "uniform", "file")
+PREVIEWS = ("none", "gif", "apng")
+VIDEOS = ("none", "mp4", "lossless")
+LOSSLESS_CODECS = ("libx264rgb", "ffv1")
+
+STUDY = {
+    "name": Key(str, "study"),
+    "description": Key(str, ""),
+    "seed": Key(int, 0, lo=0, hi=2**63 - 1),
+}
+SITE = {
+    "name": Key(str, "site"),
+    "lat_deg": Key(float, REQUIRED, lo=-90.0, hi=90.0, unit="degrees"),
+    "lon_deg": Key(float, REQUIRED, lo=-180.0, hi=360.0, unit="degrees east"),
+    "alt_km": Key(float, 0.0, lo=-10.0, hi=1000.0, unit="km above WGS84"),
+}
+FIELD = {
+    "model": Key(str, "igrf", choices=FIELD_MODELS),
+    "date": Key((str, _dt.date, float), None),
+    "total_uT": Key(float, None, lo=0.0, hi=1e6, unit="µT"),
+    "inclination_deg": Key(float, None, lo=-90.0, hi=90.0, unit="degrees"),
+    "declination_deg": Key(float, 0.0, lo=-180.0, hi=180.0, unit="degrees"),
+}
+POSE = {
+    "yaw_deg": Key(float, 0.0, lo=-360.0, hi=360.0, unit="degrees"),
+    "pitch_deg": Key(float, 0.0, lo=-90.0, hi=90.0, unit="degrees"),
+    "roll_deg": Key(float, 0.0, lo=-180.0, hi=180.0, unit="degrees"),
+}
+SCENE = {
+    "kind": Key(str, "dusk", choices=SCENE_KINDS),
+    "width": Key(int, None, lo=16, hi=32768, unit="pixels (even)"),
+    "luminance": Key(float, 0.5, lo=0.0, hi=1.0, unit="linear"),
+    "path": Key(str, None),
+    "north_col": Key(float, None, lo=0.0, unit="pixels"),
+}
+RENDER = {
+    "gain": Key(float, 1.0, lo=0.0, hi=1e6),
+    "outside": Key(float, 0.25, lo=0.0, hi=1.0),
+}
+OUTPUT = {
+    "png8": Key(bool, True, doc="8-bit sRGB PNG frames"),
+    "png16": Key(bool, False, doc="16-bit linear PNG frames"),
+    "preview": Key(str, "none", choices=PREVIEWS),
+    "preview_width": Key(int, 256, lo=8, hi=4096, unit="pixels"),
+    "video": Key(str, "none", choices=VIDEOS),
+    "lossless_codec": Key(str, "libx264rgb", choices=LOSSLESS_CODECS),
+    "crf": Key(int, 18, lo=0, hi=51),
+    "fps": Key(float, None, lo=0.0, hi=1000.0, lo_open=True, unit="frames per second"),
+    "conditions": Key(bool, True),
+    "metrics": Key(bool, True),
+    "netcdf": Key(bool, True),
+}
+METRICS = {
+    "providers": Key(list, ["basic"]),
+    "grid_width": Key(int, 90, lo=8, hi=4096, unit="pixels (even)"),
+}
+SWEEP = {
+    "combine": Key(str, "grid", choices=("grid", "zip")),
+}
+AXIS = {
+    "key": Key(str, REQUIRED),
+    "name": Key(str, None),
+    "values": Key(list, None),
+    "range": Key(list, None),
+    "linspace": Key(list, None),
+    "labels": Key(list, None),
+    "group": Key(str, None),
+}
+
+#: Top-level tables in the order they are resolved and written to study.json.
+SECTIONS = ("study", "site", "field", "pose", "layout", "response", "responses", "views", "scene",
+            "render", "sequence", "timeline", "output", "metrics", "sweep")
+
+DEFAULT_VIEWS = {"world": {"kind": "world-panorama", "width": 256}}
+
+
+@dataclass(frozen=True)
+class Study:
+    """A parsed study file.
+
+    Attributes
+    ----------
+    path : str
+        The study file.
+    base_dir : str
+        Folder relative paths in the file are resolved against.
+    sha256 : str
+        SHA-256 of the file's bytes.
+    raw : dict
+        The TOML as parsed.
+    resolved : dict
+        Every table with defaults filled in (the configuration that is run).
+    """
+
+    path: str
+    base_dir: str
+    sha256: str
+    raw: dict
+    resolved: dict
+
+    @property
+    def config_sha256(self) -> str:
+        """Identity of what is run: hash of the canonical resolved configuration."""
+        return config_digest(self.resolved)
+
+
+def canonical_json(obj) -> str:
+    return json.dumps(obj, sort_keys=True, separators=(",", ":"), default=str)
+
+
+def config_digest(resolved) -> str:
+    return hashlib.sha256(canonical_json(resolved).encode()).hexdigest()
+
+
+def read_study(path) -> tuple[bytes, dict]:
+    p = os.fspath(path)
+    try:
+        with open(p, "rb") as fh:
+            data = fh.read()
+    except OSError as exc:
+        raise MagretinaError(f"study file {p}: cannot read ({exc.strerror})") from None
+    try:
+        raw = tomllib.loads(data.decode("utf-8"))
+    except UnicodeDecodeError:
+        raise MagretinaError(f"study file {p}: not UTF-8 text") from None
+    except tomllib.TOMLDecodeError as exc:
+        raise MagretinaError(f"study file {p}: not valid TOML ({exc})") from None
+    return data, raw
+
+
+def load_study(path) -> Study:
+    """Read and validate a study file; raises ConfigError listing every problem."""
+    data, raw = read_study(path)
+    base = os.path.dirname(os.path.abspath(os.fspath(path)))
+    problems = []
+    resolved = validate(raw, base, problems)
+    if problems:
+        raise ConfigError(problems, source=os.fspath(path))
+    return Study(os.fspath(path), base, hashlib.sha256(data).hexdigest(), raw, resolved)
+
+
+def resolve_path(base_dir, p) -> str:
+    return p if os.path.isabs(p) else os.path.join(base_dir, p)
+
+
+def _file_key(path, value, base_dir, problems):
+    if value is None:
+        return
+    full = resolve_path(base_dir, value)
+    if not os.path.isfile(full):
+        problems.append(f"{path} = {value!r}: no such file (looked for {full})")
+
+
+def validate(raw: dict, base_dir: str, problems: list) -> dict:
+    """Check a parsed study mapping; return the resolved configuration.
+
+    Problems are appended to ``problems`` (strings naming the key path); the
+    returned mapping is only meaningful when none were found.
+    """
+    from . import sequences
+
+    for key in raw:
+        if key not in SECTIONS:
+            problems.append(f"{key}: unknown table; allowed: {', '.join(SECTIONS)}")
+    g = lambda name: raw.get(name, {})  # noqa: E731
+    out = {}
+    out["study"] = check_table("study", g("study"), STUDY, problems)
+    out["field"] = _check_field(g("field"), raw, problems)
+    needs_site = out["field"].get("model") != "fixed"
+    if "site" in raw or needs_site:
+        if needs_site and "site" not in raw:
+            problems.append(f"site: missing; field.model = {out['field'].get('model')!r} needs "
+                            f"[site] with lat_deg and lon_deg")
+            out["site"] = None
+        else:
+            out["site"] = check_table("site", g("site"), SITE, problems)
+    else:
+        out["site"] = None
+    out["pose"] = check_table("pose", g("pose"), POSE, problems)
+    out["layout"] = _check_layout(g("layout"), base_dir, problems)
+    out["response"] = check_response("response", raw.get("response", {"kind": "legendre",
+                                                                        "coeffs": [0.7, 0.0, 0.1]}),
+                                     base_dir, problems)
+    alts = raw.get("responses", {})
+    out["responses"] = {}
+    if not isinstance(alts, dict):
+        problems.append("responses: must be a table of named response tables")
+    else:
+        for name, tbl in alts.items():
+            if name == "default":
+                problems.append("responses.default: reserved for [response]; choose another name")
+                continue
+            out["responses"][name] = check_response(f"responses.{name}", tbl, base_dir, problems)
+    out["views"] = _check_views(raw.get("views", DEFAULT_VIEWS), problems)
+    out["scene"] = check_table("scene", g("scene"), SCENE, problems)
+    _check_scene(out["scene"], base_dir, problems)
+    out["render"] = check_table("render", g("render"), RENDER, problems)
+    out["sequence"] = sequences.check_sequence(g("sequence"), base_dir, problems)
+    out["timeline"] = sequences.check_timeline(g("timeline"), set(out["responses"]), problems)
+    out["output"] = check_table("output", g("output"), OUTPUT, problems)
+    _check_output(out, problems)
+    out["metrics"] = _check_metrics(g("metrics"), problems)
+    out["sweep"] = _check_sweep(g("sweep"), problems)
+    return out
+
+
+def _check_field(tbl, raw, problems):
+    f = check_table("field", tbl, FIELD, problems)
+    model = f.get("model")
+    if model == "fixed":
+        for k in ("total_uT", "inclination_deg"):
+            if f.get(k) is None:
+                problems.append(f"field.{k}: missing (required for field.model = 'fixed')")
+    elif model in FIELD_MODELS:
+        for k in ("total_uT", "inclination_deg"):
+            if isinstance(tbl, dict) and k in tbl:
+                problems.append(f"field.{k}: only for field.model = 'fixed' (model is {model!r})")
+        if f.get("date") is None:
+            problems.append(f"field.date: missing (required for field.model = {model!r}; "
+                            f"ISO 8601 date within 1900-01-01..2030-01-01)")
+        else:
+            from ..field.base import check_igrf_date
+
+            try:
+                when = check_igrf_date(f["date"])
+                f["date"] = when.date().isoformat() if when.time() == _dt.time() else \
+                    when.isoformat()
+            except MagretinaError as exc:
+                problems.append(f"field.date: {exc}")
+    if isinstance(f.get("date"), _dt.date):
+        f["date"] = f["date"].isoformat()
+    return f
+
+
+def _check_layout(tbl, base_dir, problems):
+    from ..eye import Eye, Layout, preset_names
+
+    if not isinstance(tbl, dict):
+        problems.append("layout: must be a table")
+        return {}
+    out = {}
+    if "preset" in tbl and "file" in tbl:
+        problems.append("layout: give preset or file, not both")
+    if "file" in tbl:
+        if check_value("layout.file", tbl["file"], Key(str), problems):
+            _file_key("layout.file", tbl["file"], base_dir, problems)
+            out["file"] = tbl["file"]
+    else:
+        preset = tbl.get("preset", "lateral")
+        names = preset_names()
+        if preset not in names:
+            problems.append(f"layout.preset = {preset!r}: allowed {', '.join(map(repr, names))} "
+                            f"(or layout.file = a layout TOML)")
+        out["preset"] = preset
+    eyes = tbl.get("eyes", {})
+    out["eyes"] = {}
+    if not isinstance(eyes, dict):
+        problems.append("layout.eyes: must be a table of [layout.eyes.NAME] tables")
+    else:
+        for name, etbl in eyes.items():
+            if not isinstance(etbl, dict):
+                problems.append(f"layout.eyes.{name}: must be a table of Eye fields")
+                continue
+            out["eyes"][name] = check_passthrough(f"layout.eyes.{name}", etbl, Eye, problems,
+                                                  exclude=("name",))
+    extra = {k: v for k, v in tbl.items() if k not in ("preset", "file", "eyes")}
+    out.update(check_passthrough("layout", extra, Layout, problems, exclude=("eyes",)))
+    return out
+
+
+def check_response(path, tbl, base_dir, problems):
+    from ..response import REGISTRY
+
+    if not isinstance(tbl, dict):
+        problems.append(f"{path}: must be a table")
+        return {}
+    kind = tbl.get("kind")
+    if kind not in REGISTRY:
+        problems.append(f"{path}.kind = {kind!r}: allowed {', '.join(map(repr, REGISTRY))}")
+        return dict(tbl)
+    cls = REGISTRY[kind]
+    out = {"kind": kind}
+    if "product" in tbl:
+        if check_value(f"{path}.product", tbl["product"], Key(str, choices=PRODUCTS), problems):
+            out["product"] = tbl["product"]
+    else:
+        out["product"] = "singlet"
+    if "csv" in tbl:
+        if not hasattr(cls, "from_csv"):
+            problems.append(f"{path}.csv: kind {kind!r} is not read from a CSV table")
+        elif check_value(f"{path}.csv", tbl["csv"], Key(str), problems):
+            _file_key(f"{path}.csv", tbl["csv"], base_dir, problems)
+            out["csv"] = tbl["csv"]
+        others = [k for k in tbl if k not in ("kind", "product", "csv")]
+        for k in others:
+            problems.append(f"{path}.{k}: not allowed with {path}.csv (the table file gives the "
+                            f"response)")
+        return out
+    out.update(check_passthrough(path, tbl, cls, problems, reserved=("kind", "product", "csv")))
+    return out
+
+
+def _check_views(tbl, problems):
+    from ..views import REGISTRY
+
+    out = {}
+    if not isinstance(tbl, dict) or not tbl:
+        problems.append("views: must hold at least one [views.NAME] table")
+        return out
+    for name, v in tbl.items():
+        path = f"views.{name}"
+        if not name.replace("_", "").replace("-", "").isalnum():
+            problems.append(f"{path}: view names are used in file names; use letters, digits, "
+                            f"'-' and '_'")
+        if not isinstance(v, dict):
+            problems.append(f"{path}: must be a table")
+            continue
+        kind = v.get("kind")
+        if kind not in REGISTRY:
+            problems.append(f"{path}.kind = {kind!r}: allowed {', '.join(map(repr, REGISTRY))}")
+            continue
+        kw = check_passthrough(path, v, REGISTRY[kind], problems, reserved=("kind",))
+        out[name] = {"kind": kind, **kw}
+    return out
+
+
+def _check_scene(s, base_dir, problems):
+    kind = s.get("kind")
+    if kind == "file":
+        if not s.get("path"):
+            problems.append("scene.path: missing (required for scene.kind = 'file')")
+        else:
+            _file_key("scene.path", s["path"], base_dir, problems)
+    elif s.get("path") is not None:
+        problems.append(f"scene.path: only for scene.kind = 'file' (kind is {kind!r})")
+    w = s.get("width")
+    if w is not None and isinstance(w, int) and w % 2:
+        problems.append(f"scene.width = {w}: must be even (the panorama is width x width/2)")
+
+
+def _check_output(out, problems):
+    o = out["output"]
+    if o.get("video") not in (None, "none") and not o.get("png8"):
+        problems.append("output.video needs output.png8 = true (videos are encoded from the "
+                        "8-bit sRGB frames)")
+    if o.get("preview") not in (None, "none") and not o.get("png8"):
+        problems.append("output.preview needs output.png8 = true (previews are made from the "
+                        "8-bit sRGB frames)")
+    if not (o.get("png8") or o.get("png16")):
+        problems.append("output: at least one of png8, png16 must be true")
+
+
+def _check_metrics(tbl, problems):
+    from .metrics import PROVIDERS
+
+    if not isinstance(tbl, dict):
+        problems.append("metrics: must be a table")
+        return {}
+    m = check_table("metrics", tbl, METRICS, problems, extra_ok=("options",))
+    provs = m.get("providers", [])
+    if isinstance(provs, list):
+        for i, p in enumerate(provs):
+            if p not in PROVIDERS:
+                problems.append(f"metrics.providers[{i}] = {p!r}: allowed "
+                                f"{', '.join(map(repr, PROVIDERS))}")
+    w = m.get("grid_width")
+    if isinstance(w, int) and w % 2:
+        problems.append(f"metrics.grid_width = {w}: must be even")
+    opts = m.get("options", {})
+    if not isinstance(opts, dict):
+        problems.append("metrics.options: must be a table of [metrics.options.PROVIDER] tables")
+        opts = {}
+    for name in opts:
+        if name not in PROVIDERS:
+            problems.append(f"metrics.options.{name}: no such provider; allowed "
+                            f"{', '.join(map(repr, PROVIDERS))}")
+    m["options"] = copy.deepcopy(opts)
+    return m
+
+
+def _check_sweep(tbl, problems):
+    if not isinstance(tbl, dict):
+        problems.append("sweep: must be a table")
+        return {"combine": "grid", "axis": []}
+    s = check_table("sweep", tbl, SWEEP, problems, extra_ok=("axis",))
+    axes = s.get("axis", [])
+    if not isinstance(axes, list) or not all(isinstance(a, dict) for a in axes):
+        problems.append("sweep.axis: must be an array of tables ([[sweep.axis]])")
+        axes = []
+    s["axis"] = [check_table(f"sweep.axis[{i}]", a, AXIS, problems) for i, a in enumerate(axes)]
+    return s
