@@ -4,7 +4,10 @@ Prints, measured side by side in this run after warm-up: the numba kernel's time
 the NumPy twin's time (same maths), and a plain copy of the same input and output
 buffers (the memory floor), with the ratios.  Targets (world panorama): kernel
 <= 3x the floor and >= 3x faster than the twin.  The head panorama resamples the
-scene and is reported the same way.  Run:  python bench/frame.py [--width 2048]
+scene and is reported the same way.  Then every receptor-alignment hypothesis is
+timed on the same composited world panorama and reported relative to the axial normal
+mode (target: all within 1.5x, because orientational averages are precomputed into
+the tables).  Run:  python bench/frame.py [--width 2048]
 """
 
 from __future__ import annotations
@@ -93,6 +96,56 @@ def main(argv=None):
         print(f"{name}: kernel {tk * 1e3:8.2f} ms | numpy twin {tt * 1e3:8.1f} ms | "
               f"memory floor {tf * 1e3:6.2f} ms | kernel/floor {tk / tf:5.2f}x | "
               f"twin/kernel {tt / tk:5.1f}x | max |kernel - twin| {err:.1e}")
+    bench_modes(a.width, a.repeat)
+
+
+def bench_modes(width, repeat):
+    """Composited world panorama per alignment hypothesis, relative to the axial normal mode."""
+    from renderer.eye.alignment import ChiefRay, Disorder, FullFrame, Normal, Ratio, Tilt
+    from renderer.response.harmonic import SphericalHarmonic
+
+    field = fixed(49.0, 66.0, 3.0)
+    pose = Pose(37.0, 5.0, -3.0)
+    base = load_layout("lateral")
+    base = base.with_eyes([e.__class__(**{**e.describe(), "alignment": None,
+                                          "nodal_offset_mm": 1.5}) for e in base.eyes])
+    rng = np.random.default_rng(0)
+    c = np.zeros(25)
+    c[0], c[4:9], c[16:25] = 2.0, 0.2 * rng.normal(size=5), 0.05 * rng.normal(size=9)
+    full = SphericalHarmonic(c)
+    axial = full.axial_average()
+    modes = [("normal (axial)", Normal(), axial), ("chief-ray", ChiefRay(), axial),
+             ("tilt 40 deg", Tilt(tilt_deg=40.0), axial), ("disorder kappa 4", Disorder(kappa=4.0), axial),
+             ("ratio 2 populations", Ratio(delta_deg=90.0), axial),
+             ("full frame, random in-plane", FullFrame(in_plane="random"), full),
+             ("full frame, meridian", FullFrame(in_plane="meridian"), full),
+             ("full frame, fixed in-plane", FullFrame(in_plane="fixed", in_plane_deg=30.0), full)]
+    scene = dusk(width)
+    img = scene.image
+    out = np.empty_like(img)
+    view = WorldPanorama(width)
+    tables = view.tables()
+    ref = None
+    print(f"alignment modes, composited world panorama {width}x{width // 2}, lateral layout, "
+          f"d = 1.5 mm (response: real harmonics l <= 4):")
+    for name, al, resp in modes:
+        lay = base.with_alignment(al)
+        t0 = time.perf_counter()
+        inputs = pipeline.prepare(field, pose, lay, resp)
+        t_prep = time.perf_counter() - t0
+        mean = pipeline.visual_field_mean(inputs)
+        M = np.ascontiguousarray(inputs.R_head_world)
+
+        def kern():
+            kernels.composite_world_aligned(img, *tables, M, inputs.R_eye_head, inputs.eye_params,
+                                            inputs.b_eye, inputs.lut, -1, 1.0 / mean, 1.0, 0.25, out,
+                                            cubes=inputs.cubes)
+
+        kern()
+        tk = best(kern, repeat)
+        ref = tk if ref is None else ref
+        print(f"  {name:30s} kernel {tk * 1e3:8.2f} ms | / normal {tk / ref:5.2f}x "
+              f"(target <= 1.5x) | first prepare {t_prep * 1e3:7.1f} ms")
 
 
 if __name__ == "__main__":

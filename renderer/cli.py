@@ -21,6 +21,11 @@ COMMANDS = [
     "field",
     "render",
     "response",
+    "spin-rf",
+    "predict",
+    "report",
+    "run",
+    "new-study",
 ]
 
 

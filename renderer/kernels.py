@@ -1,21 +1,32 @@
-"""Per-pixel kernels: view direction → eye → receptor axis → response → modulation,
+"""Per-pixel kernels: view direction → eye → receptor frame → response → modulation,
 and the scene lookup.  numba (``parallel=True, cache=True``) with a plain NumPy twin.
 
 Everything here takes plain arrays.  Geometry is packed by :func:`pack_eyes`:
 
 * ``R_eye_head`` (E, 3, 3): v_eye = R_eye_head[e] @ v_head.
-* ``eye_params`` (E, 8): d/R, nasal, temporal, dorsal, ventral half-widths (rad),
-  nasal sign (+1 if the nose is towards the eye's +y), full-sphere flag, unused.
+* ``eye_params`` (E, PARAMS), slots named by the ``P_*`` constants: the base-axis
+  geometry (q = d/R and e2 = (R/a)², with q = 0, e2 = 1 for the chief ray), the four
+  half-widths (rad), nasal sign, full-sphere flag, cos of the smallest and largest
+  half-width (fast visibility), the alignment's kernel mode, its response-table row
+  and cube index, and the mode's constants (ratio population B, in-plane angle ψ).
 * ``b_eye`` (E, 3): the unit field in each eye's frame for this shot.
-* ``lut`` (L,): the receptor signal on ``linspace(-1, 1, L)`` of cos θ, linearly
-  interpolated.
+* ``lut`` (L,) or (K, L): receptor signal tables on ``linspace(-1, 1, L)`` of cos θ,
+  linearly interpolated; eye e reads row ``eye_params[e, P_LUT]``.
+* ``cubes`` (C, 6, n, n): full-frame response tables on a cube map (see
+  :func:`cube_table`), only for full-frame modes.
 * ``pick``: −1 averages the eyes that see a direction; k ≥ 0 shows eye k only.
 
-Equirectangular views are described by per-row and per-column cos/sin tables, so
-the kernels never read a per-pixel direction array (the memory traffic is the
-scene in and the image out).  The NumPy twins compute the same maths on explicit
-direction arrays and are the reference in the tests and the baseline in ``bench/``.
-This module knows nothing of poses, fields or files.
+Per eye and pixel the base receptor axis is A·x̂ + B·u⊥ (u the eye-frame view
+direction, see :mod:`renderer.eye.optics`) and, where a mode needs it, the receptor's
+in-plane frame follows the meridian (e1, away from the posterior pole) and the
+parallel (e2).  Modes: axial (one table lookup: normal, chief ray, tilt, disorder and
+random in-plane angle, whose averages are in the table), ratio of two populations,
+full-frame with the in-plane reference on the meridian or fixed to the eye's dorsal
+direction.  Equirectangular views are described by per-row and per-column cos/sin
+tables, so the kernels never read a per-pixel direction array.  The NumPy twins
+compute the same maths on explicit direction arrays and are the reference in the
+tests and the baseline in ``bench/``.  This module knows nothing of poses, fields
+or files.
 """
 
 from __future__ import annotations
@@ -25,21 +36,49 @@ import math
 import numpy as np
 from numba import njit, prange
 
-PARAMS = 8
+PARAMS = 20
+P_Q, P_NASAL, P_TEMPORAL, P_DORSAL, P_VENTRAL, P_SIGN, P_FULL, P_E2 = range(8)
+P_MODE, P_LUT, P_CUBE = 8, 9, 10
+P_RB0, P_RB1, P_RB2 = 11, 12, 13       # ratio: population B axis = RB0·a + RB1·e1 + RB2·e2
+P_COS_PSI, P_SIN_PSI = 14, 15          # full frame: molecular x = cos ψ·e1 + sin ψ·e2
+P_COS_IN, P_COS_OUT = 16, 17           # cos(smallest), cos(largest) half-width
+
+MODE_AXIAL, MODE_RATIO, MODE_FULL_MERIDIAN, MODE_FULL_FIXED = 0, 1, 2, 3
+
+_NO_CUBES = np.zeros((1, 6, 2, 2))
 
 
-def pack_eyes(layout):
-    """Pack a :class:`renderer.eye.Layout` into (R_eye_head (E,3,3), eye_params (E,8))."""
+def pack_eyes(layout, lut_rows=None, cube_rows=None):
+    """Pack a :class:`renderer.eye.Layout` into (R_eye_head (E,3,3), eye_params (E,PARAMS)).
+
+    Parameters
+    ----------
+    layout : Layout
+    lut_rows, cube_rows : sequence of int, optional
+        Per eye, the row of the response-table stack and the cube index it reads
+        (default 0 for every eye: one shared table).
+    """
     E = len(layout.eyes)
     R = np.empty((E, 3, 3))
     P = np.zeros((E, PARAMS))
     for k, eye in enumerate(layout.eyes):
         R[k] = eye.R_head_eye.T
         hw = eye.half_widths_rad
-        P[k, 0] = eye.nodal_ratio
-        P[k, 1:5] = hw
-        P[k, 5] = eye.nasal_sign
-        P[k, 6] = 1.0 if hw.min() >= math.pi - 1e-12 else 0.0
+        q, e2 = eye.axis_geometry
+        P[k, P_Q] = q
+        P[k, P_NASAL:P_VENTRAL + 1] = hw
+        P[k, P_SIGN] = eye.nasal_sign
+        P[k, P_FULL] = 1.0 if hw.min() >= math.pi - 1e-12 else 0.0
+        P[k, P_E2] = e2
+        P[k, P_COS_IN] = math.cos(hw.min())
+        P[k, P_COS_OUT] = math.cos(hw.max())
+        al = eye.alignment
+        P[k, P_MODE] = al.mode
+        P[k, P_COS_PSI] = 1.0
+        for slot, value in al.kernel_slots().items():
+            P[k, slot] = value
+        P[k, P_LUT] = 0 if lut_rows is None else lut_rows[k]
+        P[k, P_CUBE] = 0 if cube_rows is None else cube_rows[k]
     return np.ascontiguousarray(R), P
 
 
@@ -54,6 +93,42 @@ def equirect_tables(width, height, north_col=None):
     az = np.radians((np.arange(width) + 0.5 - north_col) * 360.0 / width)
     el = np.radians(90.0 - (np.arange(height) + 0.5) * 180.0 / height)
     return np.cos(el), np.sin(el), np.cos(az), np.sin(az)
+
+
+# ---------------------------------------------------------------------------
+# cube-map tables for full-frame responses
+# ---------------------------------------------------------------------------
+
+def cube_nodes(n):
+    """Unit directions of a cube-map table's nodes, shape (6, n, n, 3).
+
+    Face f = 2k + (0 if the major axis k is positive else 1); on each face the two
+    other components, divided by the major one's magnitude, run over
+    ``linspace(-1, 1, n)`` in index order (first minor axis = row).  Nodes on the
+    cube's edges belong to two faces with equal values, so bilinear interpolation
+    never needs a neighbouring face.
+    """
+    g = np.linspace(-1.0, 1.0, int(n))
+    U, V = np.meshgrid(g, g, indexing="ij")
+    out = np.empty((6, n, n, 3))
+    for f in range(6):
+        k, sgn = divmod(f, 2)
+        minor = [i for i in range(3) if i != k]
+        out[f, ..., k] = -1.0 if sgn else 1.0
+        out[f, ..., minor[0]] = U
+        out[f, ..., minor[1]] = V
+    return out / np.linalg.norm(out, axis=-1, keepdims=True)
+
+
+def cube_table(evaluate_dirs, n=257):
+    """Sample a function of unit direction on :func:`cube_nodes`, shape (6, n, n).
+
+    Bilinear interpolation in the gnomonic face coordinates errs by at most about
+    h²/8·max|∂²f| with h = 2/(n − 1) (4e-6·max|∂²f| at n = 257).
+    """
+    d = cube_nodes(n)
+    return np.ascontiguousarray(
+        np.asarray(evaluate_dirs(d.reshape(-1, 3)), dtype=np.float64).reshape(6, n, n))
 
 
 # ---------------------------------------------------------------------------
@@ -73,8 +148,97 @@ def _lut_lookup(lut, c):
     return lut[i] + f * (lut[i + 1] - lut[i])
 
 
+@njit(cache=True)
+def _cube_lookup(cube, x, y, z):
+    ax = abs(x)
+    ay = abs(y)
+    az = abs(z)
+    if ax >= ay and ax >= az:
+        f = 0 if x > 0.0 else 1
+        m = ax
+        u = y
+        v = z
+    elif ay >= az:
+        f = 2 if y > 0.0 else 3
+        m = ay
+        u = x
+        v = z
+    else:
+        f = 4 if z > 0.0 else 5
+        m = az
+        u = x
+        v = y
+    n1 = cube.shape[2] - 1
+    xu = (u / m + 1.0) * 0.5 * n1
+    xv = (v / m + 1.0) * 0.5 * n1
+    i = min(max(int(xu), 0), n1 - 1)
+    j = min(max(int(xv), 0), n1 - 1)
+    fu = xu - i
+    fv = xv - j
+    t = cube[f, i, j] * (1.0 - fv) + cube[f, i, j + 1] * fv
+    b = cube[f, i + 1, j] * (1.0 - fv) + cube[f, i + 1, j + 1] * fv
+    return t * (1.0 - fu) + b * fu
+
+
 @njit(cache=True, inline="always")
-def _signal(hx, hy, hz, R_eye_head, eye_params, b_eye, lut, pick):
+def _visible(ux, uy, uz, p):
+    if p[P_FULL] != 0.0 or ux >= p[P_COS_IN]:
+        return True
+    if ux < p[P_COS_OUT]:
+        return False
+    h = p[P_SIGN] * uy
+    v = -uz
+    s2 = h * h + v * v
+    if s2 == 0.0:
+        return ux > 0.0
+    wh = p[P_NASAL] if h >= 0.0 else p[P_TEMPORAL]
+    wv = p[P_DORSAL] if v >= 0.0 else p[P_VENTRAL]
+    alpha = math.atan2(math.sqrt(s2), ux)
+    return (h * h / (wh * wh) + v * v / (wv * wv)) * alpha * alpha <= s2
+
+
+@njit(cache=True)
+def _frame_signal(ux, uy, uz, A, B, bx, by, bz, c, p, lut, cube):
+    """Signal of the modes that need the receptor's in-plane frame (ratio, full)."""
+    s = math.sqrt(uy * uy + uz * uz)
+    if s > 0.0:
+        my = uy / s
+        mz = uz / s
+    else:
+        my = 1.0
+        mz = 0.0
+    mode = p[P_MODE]
+    if mode == MODE_FULL_FIXED:
+        # reference: the eye's dorsal direction (0, 0, -1) projected on the membrane
+        a0 = A
+        a1 = B * uy
+        a2 = B * uz
+        nr = math.sqrt(max(0.0, 1.0 - a2 * a2))
+        if nr > 1e-12:
+            r0 = a2 * a0 / nr
+            r1 = a2 * a1 / nr
+            r2 = (a2 * a2 - 1.0) / nr
+        else:
+            r0 = 1.0
+            r1 = 0.0
+            r2 = 0.0
+        be1 = bx * r0 + by * r1 + bz * r2
+        # e2 = a × r
+        be2 = (bx * (a1 * r2 - a2 * r1) + by * (a2 * r0 - a0 * r2) + bz * (a0 * r1 - a1 * r0))
+    else:
+        bm = by * my + bz * mz
+        be1 = A * bm - B * s * bx
+        be2 = bz * my - by * mz
+    if mode == MODE_RATIO:
+        cb = p[P_RB0] * c + p[P_RB1] * be1 + p[P_RB2] * be2
+        return _lut_lookup(lut, c) / _lut_lookup(lut, cb)
+    cp = p[P_COS_PSI]
+    sp = p[P_SIN_PSI]
+    return _cube_lookup(cube, cp * be1 + sp * be2, cp * be2 - sp * be1, c)
+
+
+@njit(cache=True, inline="always")
+def _signal(hx, hy, hz, R_eye_head, eye_params, b_eye, luts, cubes, pick):
     """Signal for a head-frame unit direction; NaN if no eye sees it."""
     acc = 0.0
     cnt = 0
@@ -87,25 +251,33 @@ def _signal(hx, hy, hz, R_eye_head, eye_params, b_eye, lut, pick):
         uy = R[1, 0] * hx + R[1, 1] * hy + R[1, 2] * hz
         uz = R[2, 0] * hx + R[2, 1] * hy + R[2, 2] * hz
         p = eye_params[e]
-        if p[6] == 0.0:
-            h = p[5] * uy
-            v = -uz
-            s2 = h * h + v * v
-            if s2 == 0.0:
-                if ux <= 0.0:
-                    continue
-            else:
-                wh = p[1] if h >= 0.0 else p[2]
-                wv = p[3] if v >= 0.0 else p[4]
-                alpha = math.atan2(math.sqrt(s2), ux)
-                if (h * h / (wh * wh) + v * v / (wv * wv)) * alpha * alpha > s2:
-                    continue
-        q = p[0]
+        if not _visible(ux, uy, uz, p):
+            continue
+        q = p[P_Q]
+        e2 = p[P_E2]
         uxc = min(1.0, max(-1.0, ux))
-        t = q * uxc + math.sqrt(1.0 - q * q * (1.0 - uxc * uxc))
+        s2 = 1.0 - uxc * uxc
+        if e2 == 1.0:
+            B = q * uxc + math.sqrt(1.0 - q * q * s2)
+            A = B * uxc - q
+        else:
+            k = e2 * uxc * uxc + s2
+            hb = q * e2 * uxc
+            t = (hb + math.sqrt(hb * hb - k * (q * q * e2 - 1.0))) / k
+            ax = (t * uxc - q) * e2
+            inv = 1.0 / math.sqrt(ax * ax + t * t * s2)
+            A = ax * inv
+            B = t * inv
         bx = b_eye[e, 0]
-        c = t * (ux * bx + uy * b_eye[e, 1] + uz * b_eye[e, 2]) - q * bx
-        acc += _lut_lookup(lut, c)
+        by = b_eye[e, 1]
+        bz = b_eye[e, 2]
+        c = A * bx + B * (uy * by + uz * bz)
+        lut = luts[int(p[P_LUT])]
+        if p[P_MODE] == MODE_AXIAL:
+            acc += _lut_lookup(lut, c)
+        else:
+            acc += _frame_signal(ux, uy, uz, A, B, bx, by, bz, c, p, lut,
+                                 cubes[int(p[P_CUBE])])
         cnt += 1
     if cnt == 0:
         return np.nan
@@ -113,8 +285,8 @@ def _signal(hx, hy, hz, R_eye_head, eye_params, b_eye, lut, pick):
 
 
 @njit(parallel=True, cache=True)
-def pattern_equirect(cos_el, sin_el, cos_az, sin_az, R_head_view, R_eye_head, eye_params,
-                     b_eye, lut, pick, out):
+def _pattern_equirect(cos_el, sin_el, cos_az, sin_az, R_head_view, R_eye_head, eye_params,
+                     b_eye, lut, cubes, pick, out):
     """Signal on an equirectangular grid whose directions are in the view frame.
 
     ``out`` (H, W) float64 is filled; NaN where no eye sees.
@@ -131,11 +303,11 @@ def pattern_equirect(cos_el, sin_el, cos_az, sin_az, R_head_view, R_eye_head, ey
             hx = M[0, 0] * vx + M[0, 1] * vy + M[0, 2] * vz
             hy = M[1, 0] * vx + M[1, 1] * vy + M[1, 2] * vz
             hz = M[2, 0] * vx + M[2, 1] * vy + M[2, 2] * vz
-            out[i, j] = _signal(hx, hy, hz, R_eye_head, eye_params, b_eye, lut, pick)
+            out[i, j] = _signal(hx, hy, hz, R_eye_head, eye_params, b_eye, lut, cubes, pick)
 
 
 @njit(parallel=True, cache=True)
-def pattern_dirs(dirs, R_head_view, R_eye_head, eye_params, b_eye, lut, pick, out):
+def _pattern_dirs(dirs, R_head_view, R_eye_head, eye_params, b_eye, lut, cubes, pick, out):
     """Signal for explicit unit directions ``dirs`` (N, 3) in the view frame -> ``out`` (N,)."""
     M = R_head_view
     for n in prange(dirs.shape[0]):
@@ -148,7 +320,7 @@ def pattern_dirs(dirs, R_head_view, R_eye_head, eye_params, b_eye, lut, pick, ou
         hx = M[0, 0] * vx + M[0, 1] * vy + M[0, 2] * vz
         hy = M[1, 0] * vx + M[1, 1] * vy + M[1, 2] * vz
         hz = M[2, 0] * vx + M[2, 1] * vy + M[2, 2] * vz
-        out[n] = _signal(hx, hy, hz, R_eye_head, eye_params, b_eye, lut, pick)
+        out[n] = _signal(hx, hy, hz, R_eye_head, eye_params, b_eye, lut, cubes, pick)
 
 
 @njit(cache=True, inline="always")
@@ -197,8 +369,8 @@ def _modulate(px, s, inv_mean, gain, outside, out_px):
 
 
 @njit(parallel=True, cache=True)
-def composite_world_aligned(scene, cos_el, sin_el, cos_az, sin_az, R_head_view, R_eye_head,
-                            eye_params, b_eye, lut, pick, inv_mean, gain, outside, out):
+def _composite_world_aligned(scene, cos_el, sin_el, cos_az, sin_az, R_head_view, R_eye_head,
+                            eye_params, b_eye, lut, cubes, pick, inv_mean, gain, outside, out):
     """Composite a world panorama whose pixel grid coincides with the scene's.
 
     ``scene`` and ``out`` (H, W, C) float32 linear light.  Modulation
@@ -217,14 +389,14 @@ def composite_world_aligned(scene, cos_el, sin_el, cos_az, sin_az, R_head_view, 
             hx = M[0, 0] * vx + M[0, 1] * vy + M[0, 2] * vz
             hy = M[1, 0] * vx + M[1, 1] * vy + M[1, 2] * vz
             hz = M[2, 0] * vx + M[2, 1] * vy + M[2, 2] * vz
-            s = _signal(hx, hy, hz, R_eye_head, eye_params, b_eye, lut, pick)
+            s = _signal(hx, hy, hz, R_eye_head, eye_params, b_eye, lut, cubes, pick)
             _modulate(scene[i, j], s, inv_mean, gain, outside, out[i, j])
 
 
 @njit(parallel=True, cache=True)
-def composite_resampled(scene, north_col, cos_el, sin_el, cos_az, sin_az, R_head_view,
-                        R_world_view, R_eye_head, eye_params, b_eye, lut, pick, inv_mean, gain,
-                        outside, out):
+def _composite_resampled(scene, north_col, cos_el, sin_el, cos_az, sin_az, R_head_view,
+                        R_world_view, R_eye_head, eye_params, b_eye, lut, cubes, pick, inv_mean,
+                         gain, outside, out):
     """Composite an equirectangular view (any frame) over a resampled scene.
 
     The scene is a 2:1 world panorama with geographic north at continuous column
@@ -256,13 +428,13 @@ def composite_resampled(scene, north_col, cos_el, sin_el, cos_az, sin_az, R_head
             hx = M[0, 0] * vx + M[0, 1] * vy + M[0, 2] * vz
             hy = M[1, 0] * vx + M[1, 1] * vy + M[1, 2] * vz
             hz = M[2, 0] * vx + M[2, 1] * vy + M[2, 2] * vz
-            s = _signal(hx, hy, hz, R_eye_head, eye_params, b_eye, lut, pick)
+            s = _signal(hx, hy, hz, R_eye_head, eye_params, b_eye, lut, cubes, pick)
             _modulate(px, s, inv_mean, gain, outside, out[i, j])
 
 
 @njit(parallel=True, cache=True)
-def composite_dirs(scene, north_col, dirs, R_head_view, R_world_view, R_eye_head, eye_params,
-                   b_eye, lut, pick, inv_mean, gain, outside, out):
+def _composite_dirs(scene, north_col, dirs, R_head_view, R_world_view, R_eye_head, eye_params,
+                   b_eye, lut, cubes, pick, inv_mean, gain, outside, out):
     """Composite for explicit view directions ``dirs`` (N, 3); ``out`` (N, C) float32.
 
     Rows of ``dirs`` that are NaN (outside a view's footprint) give 0.
@@ -290,8 +462,91 @@ def composite_dirs(scene, north_col, dirs, R_head_view, R_world_view, R_eye_head
         hx = M[0, 0] * vx + M[0, 1] * vy + M[0, 2] * vz
         hy = M[1, 0] * vx + M[1, 1] * vy + M[1, 2] * vz
         hz = M[2, 0] * vx + M[2, 1] * vy + M[2, 2] * vz
-        s = _signal(hx, hy, hz, R_eye_head, eye_params, b_eye, lut, pick)
+        s = _signal(hx, hy, hz, R_eye_head, eye_params, b_eye, lut, cubes, pick)
         _modulate(px, s, inv_mean, gain, outside, out[n])
+
+
+# ---------------------------------------------------------------------------
+# public entry points: normalise the tables, then call the compiled kernels
+# ---------------------------------------------------------------------------
+
+def _tables(eye_params, lut, cubes):
+    lut = np.asarray(lut, dtype=np.float64)
+    if lut.ndim == 1:
+        lut = lut[None, :]
+    lut = np.ascontiguousarray(lut)
+    rows = eye_params[:, P_LUT]
+    if rows.size and (rows.min() < 0 or rows.max() >= lut.shape[0]):
+        raise ValueError(f"eye_params ask for response-table rows up to {int(rows.max())} but "
+                         f"lut has {lut.shape[0]} row(s); pass the stacked tables from "
+                         f"pipeline.prepare (ShotInputs.lut)")
+    needs_cube = eye_params[:, P_MODE] >= MODE_FULL_MERIDIAN
+    if cubes is None:
+        if needs_cube.any():
+            raise ValueError("a full-frame alignment needs its cube-map tables: pass "
+                             "cubes=ShotInputs.cubes")
+        cubes = _NO_CUBES
+    cubes = np.ascontiguousarray(cubes, dtype=np.float64)
+    if needs_cube.any() and eye_params[needs_cube, P_CUBE].max() >= cubes.shape[0]:
+        raise ValueError("eye_params ask for a cube-map table that is not in cubes")
+    return lut, cubes
+
+
+def pattern_equirect(cos_el, sin_el, cos_az, sin_az, R_head_view, R_eye_head, eye_params, b_eye,
+                     lut, pick, out, cubes=None):
+    """Signal on an equirectangular grid whose directions are in the view frame.
+
+    ``out`` (H, W) float64 is filled; NaN where no eye sees.
+    """
+    lut, cubes = _tables(eye_params, lut, cubes)
+    _pattern_equirect(cos_el, sin_el, cos_az, sin_az, R_head_view, R_eye_head, eye_params, b_eye,
+                      lut, cubes, pick, out)
+
+
+def pattern_dirs(dirs, R_head_view, R_eye_head, eye_params, b_eye, lut, pick, out, cubes=None):
+    """Signal for explicit unit directions ``dirs`` (N, 3) in the view frame -> ``out`` (N,)."""
+    lut, cubes = _tables(eye_params, lut, cubes)
+    _pattern_dirs(dirs, R_head_view, R_eye_head, eye_params, b_eye, lut, cubes, pick, out)
+
+
+def composite_world_aligned(scene, cos_el, sin_el, cos_az, sin_az, R_head_view, R_eye_head,
+                            eye_params, b_eye, lut, pick, inv_mean, gain, outside, out,
+                            cubes=None):
+    """Composite a world panorama whose pixel grid coincides with the scene's.
+
+    ``scene`` and ``out`` (H, W, C) float32 linear light.  Modulation
+    m = gain·(s/mean − 1) multiplies every channel (luminance, chromaticity kept);
+    unseen pixels are multiplied by ``outside``.
+    """
+    lut, cubes = _tables(eye_params, lut, cubes)
+    _composite_world_aligned(scene, cos_el, sin_el, cos_az, sin_az, R_head_view, R_eye_head,
+                             eye_params, b_eye, lut, cubes, pick, inv_mean, gain, outside, out)
+
+
+def composite_resampled(scene, north_col, cos_el, sin_el, cos_az, sin_az, R_head_view,
+                        R_world_view, R_eye_head, eye_params, b_eye, lut, pick, inv_mean, gain,
+                        outside, out, cubes=None):
+    """Composite an equirectangular view (any frame) over a resampled scene.
+
+    The scene is a 2:1 world panorama with geographic north at continuous column
+    ``north_col``; each output pixel's direction is rotated into the world frame by
+    ``R_world_view`` and the scene sampled bilinearly.
+    """
+    lut, cubes = _tables(eye_params, lut, cubes)
+    _composite_resampled(scene, north_col, cos_el, sin_el, cos_az, sin_az, R_head_view,
+                         R_world_view, R_eye_head, eye_params, b_eye, lut, cubes, pick, inv_mean,
+                         gain, outside, out)
+
+
+def composite_dirs(scene, north_col, dirs, R_head_view, R_world_view, R_eye_head, eye_params,
+                   b_eye, lut, pick, inv_mean, gain, outside, out, cubes=None):
+    """Composite for explicit view directions ``dirs`` (N, 3); ``out`` (N, C) float32.
+
+    Rows of ``dirs`` that are NaN (outside a view's footprint) give 0.
+    """
+    lut, cubes = _tables(eye_params, lut, cubes)
+    _composite_dirs(scene, north_col, dirs, R_head_view, R_world_view, R_eye_head, eye_params,
+                    b_eye, lut, cubes, pick, inv_mean, gain, outside, out)
 
 
 # ---------------------------------------------------------------------------
@@ -314,10 +569,63 @@ def lut_lookup_numpy(lut, c):
     return lut[i] + f * (lut[i + 1] - lut[i])
 
 
-def signal_numpy(dirs_head, R_eye_head, eye_params, b_eye, lut, pick=-1):
-    """NumPy twin of the per-direction signal: (N, 3) head-frame unit dirs -> (N,)."""
+def cube_lookup_numpy(cube, dirs):
+    """NumPy twin of the cube-map lookup: (6, n, n) table, (N, 3) directions -> (N,)."""
+    d = np.asarray(dirs, dtype=np.float64)
+    ad = np.abs(d)
+    k = np.where((ad[:, 0] >= ad[:, 1]) & (ad[:, 0] >= ad[:, 2]), 0,
+                 np.where(ad[:, 1] >= ad[:, 2], 1, 2))
+    idx = np.arange(d.shape[0])
+    major = d[idx, k]
+    face = 2 * k + (major <= 0.0)
+    m = np.abs(major)
+    minor0 = np.where(k == 0, 1, 0)
+    minor1 = np.where(k == 2, 1, 2)
+    n1 = cube.shape[2] - 1
+    xu = (d[idx, minor0] / m + 1.0) * 0.5 * n1
+    xv = (d[idx, minor1] / m + 1.0) * 0.5 * n1
+    i = np.clip(xu.astype(np.int64), 0, n1 - 1)
+    j = np.clip(xv.astype(np.int64), 0, n1 - 1)
+    fu = xu - i
+    fv = xv - j
+    t = cube[face, i, j] * (1 - fv) + cube[face, i, j + 1] * fv
+    b = cube[face, i + 1, j] * (1 - fv) + cube[face, i + 1, j + 1] * fv
+    return t * (1 - fu) + b * fu
+
+
+def _visible_twin(u, p):
     from .eye.eye import _visible_numpy
 
+    if p[P_FULL] != 0.0:
+        return np.ones(u.shape[0], bool)
+    return _visible_numpy(u, p[P_NASAL:P_VENTRAL + 1], p[P_SIGN])
+
+
+def receptor_frames_numpy(u, p):
+    """Base axis a and in-plane frame (e1, e2) of the receptors, each (N, 3), eye frame,
+    for eye-frame view directions ``u`` (N, 3) and one eye's packed parameters."""
+    from .eye.optics import normal_coefficients
+
+    A, B = normal_coefficients(u[:, 0], p[P_Q], p[P_E2])
+    a = B[:, None] * u
+    a[:, 0] = A
+    if p[P_MODE] == MODE_FULL_FIXED:
+        g = np.array([0.0, 0.0, -1.0])
+        r = g - (a @ g)[:, None] * a
+        nr = np.linalg.norm(r, axis=1, keepdims=True)
+        e1 = np.where(nr > 1e-12, r / np.where(nr > 1e-12, nr, 1.0), np.array([1.0, 0.0, 0.0]))
+    else:
+        s = np.hypot(u[:, 1], u[:, 2])[:, None]
+        m = np.where(s > 0, np.concatenate([np.zeros_like(s), u[:, 1:]], 1) / np.where(s > 0, s, 1),
+                     np.array([0.0, 1.0, 0.0]))
+        e1 = -np.sum(a * m, 1)[:, None] * np.array([1.0, 0.0, 0.0]) + a[:, :1] * m
+    e2 = np.cross(a, e1)
+    return a, e1, e2
+
+
+def signal_numpy(dirs_head, R_eye_head, eye_params, b_eye, lut, pick=-1, cubes=None):
+    """NumPy twin of the per-direction signal: (N, 3) head-frame unit dirs -> (N,)."""
+    luts, cubes = _tables(eye_params, lut, cubes)
     d = np.asarray(dirs_head, dtype=np.float64)
     acc = np.zeros(d.shape[0])
     cnt = np.zeros(d.shape[0])
@@ -326,22 +634,35 @@ def signal_numpy(dirs_head, R_eye_head, eye_params, b_eye, lut, pick=-1):
             continue
         u = d @ R_eye_head[e].T
         p = eye_params[e]
-        vis = _visible_numpy(u, p[1:5], p[5]) if p[6] == 0.0 else np.ones(d.shape[0], bool)
-        q = p[0]
-        ux = np.clip(u[:, 0], -1.0, 1.0)
-        t = q * ux + np.sqrt(1.0 - q * q * (1.0 - ux * ux))
-        c = t * (u @ b_eye[e]) - q * b_eye[e, 0]
-        val = lut_lookup_numpy(lut, c)
+        vis = _visible_twin(u, p)
+        a, e1, e2 = receptor_frames_numpy(u, p)
+        b = b_eye[e]
+        c = a @ b
+        table = luts[int(p[P_LUT])]
+        mode = p[P_MODE]
+        if mode == MODE_AXIAL:
+            val = lut_lookup_numpy(table, c)
+        elif mode == MODE_RATIO:
+            cb = p[P_RB0] * c + p[P_RB1] * (e1 @ b) + p[P_RB2] * (e2 @ b)
+            val = lut_lookup_numpy(table, c) / lut_lookup_numpy(table, cb)
+        else:
+            cp, sp = p[P_COS_PSI], p[P_SIN_PSI]
+            x = cp * e1 + sp * e2
+            y = cp * e2 - sp * e1
+            b_mol = np.stack([x @ b, y @ b, c], axis=1)
+            val = cube_lookup_numpy(cubes[int(p[P_CUBE])], b_mol)
         acc += np.where(vis, val, 0.0)
         cnt += vis
     with np.errstate(invalid="ignore"):
         return np.where(cnt > 0, acc / np.maximum(cnt, 1), np.nan)
 
 
-def pattern_numpy(dirs_view, R_head_view, R_eye_head, eye_params, b_eye, lut, pick=-1):
+def pattern_numpy(dirs_view, R_head_view, R_eye_head, eye_params, b_eye, lut, pick=-1,
+                  cubes=None):
     """NumPy twin of :func:`pattern_dirs`."""
     d = np.asarray(dirs_view, dtype=np.float64)
-    return signal_numpy(d @ np.asarray(R_head_view).T, R_eye_head, eye_params, b_eye, lut, pick)
+    return signal_numpy(d @ np.asarray(R_head_view).T, R_eye_head, eye_params, b_eye, lut, pick,
+                        cubes)
 
 
 def sample_equirect_numpy(scene, north_col, dirs_world):

@@ -5,8 +5,9 @@ pattern per pixel.  Density is given per mm² of retina (``unit="mm2"``: uniform
 retinal area on the spherical retina of :class:`renderer.eye.Eye`) or per square
 degree of visual field (``unit="deg2"``: uniform in view-direction solid angle),
 optionally scaled by a relative-density profile of eccentricity (angle of the view
-direction from the optic axis).  Points are drawn on the whole unit sphere of the
-eye frame, either as a jittered Fibonacci lattice (each point uniform inside its own
+direction from the optic axis).  Points are drawn on the whole unit sphere of view
+directions in the eye frame (per mm²: thinned in proportion to the retinal area per
+steradian, from :meth:`Eye.retinal_points`), either as a jittered Fibonacci lattice (each point uniform inside its own
 equal-area band, so the expected density is exactly uniform) or as a Poisson-disc
 set (scipy's ``qmc.PoissonDisk`` in the Lambert azimuthal equal-area plane about
 the optic axis, thinned to the expected count), then kept where the eye sees.
@@ -184,6 +185,28 @@ def sphere_poisson_disc(n, rng) -> np.ndarray:
     return np.stack([cos_a, pts[:, 0] * s, pts[:, 1] * s], axis=-1)
 
 
+def retinal_area_per_sr(eye, dirs_eye, h=1e-4) -> np.ndarray:
+    """Retinal area per steradian of view directions, dA/dΩ in mm² sr⁻¹, shape (N,).
+
+    Central differences (step ``h`` rad, error O(h²)) of :meth:`Eye.retinal_points` along
+    two tangent directions; for a spherical retina with the nodal point at its centre
+    this is R² everywhere.
+    """
+    u = np.asarray(dirs_eye, float)
+    ref = np.where(np.abs(u[:, :1]) < 0.9, np.array([[1.0, 0.0, 0.0]]), np.array([[0.0, 1.0, 0.0]]))
+    e1 = np.cross(u, ref)
+    e1 /= np.linalg.norm(e1, axis=1, keepdims=True)
+    e2 = np.cross(u, e1)
+
+    def P(v):
+        v = v / np.linalg.norm(v, axis=1, keepdims=True)
+        return eye.retinal_points(v) * eye.retina_radius_mm
+
+    d1 = (P(u + h * e1) - P(u - h * e1)) / (2 * h)
+    d2 = (P(u + h * e2) - P(u - h * e2)) / (2 * h)
+    return np.linalg.norm(np.cross(d1, d2), axis=1)
+
+
 def _relative(spec, ecc_deg):
     if not spec.eccentricity_deg:
         return np.ones_like(ecc_deg)
@@ -214,8 +237,14 @@ def build_mosaic(layout, spec: MosaicSpec) -> Mosaic:
                     f"of eye {eye.name!r} (its widest half-width is {widest:g} degrees); allowed "
                     f"(0, {widest:g}]")
         rng = np.random.default_rng(children[k])
+        thin = False
         if spec.unit == "mm2":
-            n_full = spec.density * 4.0 * math.pi * eye.retina_radius_mm ** 2
+            # uniform in retinal area: oversample view directions at the largest retinal
+            # area per steradian, then keep each with probability (dA/dΩ)/max
+            probe = retinal_area_per_sr(eye, sphere_jittered(4000, rng))
+            thin = probe.max() - probe.min() > 1e-9 * probe.max()  # d = 0 sphere: uniform
+            jmax = 1.1 * float(probe.max()) if thin else float(probe.mean())
+            n_full = spec.density * 4.0 * math.pi * jmax
         else:
             n_full = spec.density * SPHERE_DEG2
         if n_full > 5e7:
@@ -225,16 +254,12 @@ def build_mosaic(layout, spec: MosaicSpec) -> Mosaic:
         if n < 1:
             raise MagretinaError(f"mosaic density = {spec.density:g} per {spec.unit} is too low: "
                                  f"eye {eye.name!r} gets no receptors")
-        pts = sphere_jittered(n, rng) if spec.method == "jittered" else sphere_poisson_disc(n, rng)
-        if spec.unit == "mm2":
-            a = pts  # uniform in retinal area; the ray through the nodal point gives the view
-            u = a.copy()
-            u[:, 0] += eye.nodal_ratio
-            u /= np.linalg.norm(u, axis=1, keepdims=True)
-        else:
-            u = pts
-            a = eye.receptor_axes(u)
-        keep = eye.visible(u)
+        u = sphere_jittered(n, rng) if spec.method == "jittered" else sphere_poisson_disc(n, rng)
+        keep = np.ones(u.shape[0], bool)
+        if thin:
+            keep &= rng.uniform(size=u.shape[0]) * jmax < retinal_area_per_sr(eye, u)
+        a = eye.receptor_axes(u)
+        keep &= eye.visible(u)
         if spec.eccentricity_deg:
             ecc = np.degrees(np.arccos(np.clip(u[:, 0], -1.0, 1.0)))
             keep &= rng.uniform(size=u.shape[0]) < _relative(spec, ecc)
@@ -301,4 +326,4 @@ def explicit_mosaic(layout, eye_index, dirs_eye, spec=None) -> Mosaic:
 
 
 __all__ = ["MosaicSpec", "Mosaic", "build_mosaic", "explicit_mosaic", "sphere_jittered",
-           "sphere_poisson_disc", "UNITS", "METHODS"]
+           "sphere_poisson_disc", "retinal_area_per_sr", "UNITS", "METHODS"]

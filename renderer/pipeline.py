@@ -11,6 +11,7 @@ This module does no file I/O.
 
 from __future__ import annotations
 
+import weakref
 from dataclasses import dataclass
 
 import numpy as np
@@ -27,7 +28,12 @@ PRODUCTS = ("singlet", "triplet")
 
 @dataclass(frozen=True)
 class ShotInputs:
-    """Kernel inputs for one field, pose, layout and response."""
+    """Kernel inputs for one field, pose, layout and response.
+
+    ``lut`` is the receptor-signal table (L,) when every eye reads the same one, else
+    the stack (K, L) that ``eye_params`` index; ``cubes`` (C, 6, n, n) holds the
+    full-frame tables (None when no eye needs one).  Pass both to the kernels.
+    """
 
     R_eye_head: np.ndarray
     eye_params: np.ndarray
@@ -36,38 +42,124 @@ class ShotInputs:
     R_head_world: np.ndarray
     b_head_unit: np.ndarray
     total_T: float
+    cubes: np.ndarray | None = None
+
+    @property
+    def luts(self) -> np.ndarray:
+        """The response tables as a stack, shape (K, L)."""
+        return self.lut if self.lut.ndim == 2 else self.lut[None, :]
 
 
-def response_lut(response, product="singlet", n=LUT_SIZE) -> np.ndarray:
-    """The receptor signal table: f, or 1 − f if the triplet product drives vision."""
+#: Side of the cube-map faces for full-frame responses (see kernels.cube_table).
+CUBE_SIZE = 257
+
+_TABLE_CACHE: dict = {}
+_CACHE_LIMIT = 32
+
+
+def _cached(kind, response, key, build):
+    """Per-response table cache: tilt/disorder projections and cube maps are built once
+    per (response object, alignment), not per shot."""
+    ck = (kind, id(response), key)
+    hit = _TABLE_CACHE.get(ck)
+    if hit is not None and hit[0]() is response:
+        return hit[1]
+    value = build()
+    value.setflags(write=False)
+    if len(_TABLE_CACHE) >= _CACHE_LIMIT:
+        _TABLE_CACHE.pop(next(iter(_TABLE_CACHE)))
+    try:
+        ref = weakref.ref(response)
+    except TypeError:
+        return value
+    _TABLE_CACHE[ck] = (ref, value)
+    return value
+
+
+def _check_product(product):
     if product not in PRODUCTS:
         raise MagretinaError(f"product = {product!r}: allowed {', '.join(PRODUCTS)}")
-    if not getattr(response, "axial", True):
-        response = response.axial_average()
-    lut = np.ascontiguousarray(response.lut(n), dtype=np.float64)
+
+
+def response_lut(response, product="singlet", n=LUT_SIZE, alignment=None) -> np.ndarray:
+    """The receptor signal table: f, or 1 − f if the triplet product drives vision,
+    after the alignment hypothesis's averaging (default: none)."""
+    from .eye.alignment import Normal
+
+    _check_product(product)
+    al = Normal() if alignment is None else alignment
+    lut = _cached("lut", response, (al, int(n)),
+                  lambda: np.ascontiguousarray(al.axial_lut(response, n), dtype=np.float64))
     if not np.all(np.isfinite(lut)):
         raise MagretinaError("the response gives non-finite values somewhere in cos θ ∈ [-1, 1]")
-    return 1.0 - lut if product == "triplet" else lut
+    return 1.0 - lut if product == "triplet" else np.array(lut)
 
 
-def prepare(field, pose, layout, response, product="singlet") -> ShotInputs:
+def response_cube(response, product="singlet", n=CUBE_SIZE) -> np.ndarray:
+    """The full-frame signal table on a cube map (6, n, n) (see kernels.cube_table)."""
+    _check_product(product)
+    cube = _cached("cube", response, int(n), lambda: kernels.cube_table(response.evaluate_dirs, n))
+    if not np.all(np.isfinite(cube)):
+        raise MagretinaError("the response gives non-finite values for some field direction")
+    return 1.0 - cube if product == "triplet" else np.array(cube)
+
+
+def prepare(field, pose, layout, response, product="singlet", eye_offsets=None) -> ShotInputs:
     """Pack the per-shot kernel inputs.
 
-    With a zero field the axial response has no direction to respond to; the
-    receptors then all give the response's spherical mean (no pattern).
+    Parameters
+    ----------
+    field, pose, layout, response
+        As :func:`render_pattern`.
+    product : "singlet" or "triplet"
+    eye_offsets : mapping, optional
+        Eye movements for this shot, {eye name or index: (d_azimuth, d_elevation,
+        d_torsion) in degrees}; see :meth:`renderer.eye.Layout.moved`.
+
+    With a zero field the receptors have no direction to respond to; they then all
+    give the response's spherical mean (no pattern; a ratio channel gives 1).
     """
-    R_eye_head, eye_params = kernels.pack_eyes(layout)
-    lut = response_lut(response, product)
+    if eye_offsets:
+        layout = layout.moved(eye_offsets)
+    luts, rows = [], []
+    cubes, cube_rows = [], []
+    for eye in layout.eyes:
+        al = eye.alignment
+        lut = response_lut(response, product, alignment=al)
+        for k, other in enumerate(luts):
+            if np.array_equal(other, lut):
+                rows.append(k)
+                break
+        else:
+            rows.append(len(luts))
+            luts.append(lut)
+        if al.needs_full_response():
+            if not cubes:
+                cubes.append(response_cube(response, product))
+            cube_rows.append(0)
+        else:
+            cube_rows.append(0)
+    R_eye_head, eye_params = kernels.pack_eyes(layout, rows, cube_rows)
+    lut_stack = np.ascontiguousarray(np.stack(luts))
+    cube_stack = np.ascontiguousarray(np.stack(cubes)) if cubes else None
     R_head_world = pose.R_head_world
     b = np.asarray(field.ned_T, float)
     total = float(np.linalg.norm(b))
     if total == 0.0:
-        lut = np.full_like(lut, float(np.mean(0.5 * (lut[1:] + lut[:-1]))))
+        iso = lut_stack.copy()
+        for k in range(iso.shape[0]):
+            iso[k] = float(np.mean(0.5 * (lut_stack[k, 1:] + lut_stack[k, :-1])))
+        if cube_stack is not None:
+            mean_full = response_lut(response, product)  # in-plane average of the full response
+            cube_stack = np.full_like(cube_stack, float(np.mean(0.5 * (mean_full[1:] + mean_full[:-1]))))
+        lut_stack = iso
         b_head = np.array([0.0, 0.0, 1.0])
     else:
         b_head = R_head_world @ (b / total)
     b_eye = np.ascontiguousarray(np.einsum("eij,j->ei", R_eye_head, b_head))
-    return ShotInputs(R_eye_head, eye_params, b_eye, lut, R_head_world, b_head, total)
+    lut_out = lut_stack[0].copy() if lut_stack.shape[0] == 1 else lut_stack
+    return ShotInputs(R_eye_head, eye_params, b_eye, lut_out, R_head_world, b_head, total,
+                      cube_stack)
 
 
 def _R_head_view(view, inputs: ShotInputs):
@@ -89,12 +181,12 @@ def _signal_map(inputs, view, layout, lut) -> np.ndarray:
     if view.equirect:
         out = np.empty((H, W))
         kernels.pattern_equirect(*view.tables(), M, inputs.R_eye_head, inputs.eye_params,
-                                 inputs.b_eye, lut, pick, out)
+                                 inputs.b_eye, lut, pick, out, cubes=inputs.cubes)
         return out
     dirs = np.ascontiguousarray(view.directions(layout).reshape(-1, 3))
     out = np.empty(dirs.shape[0])
     kernels.pattern_dirs(dirs, M, inputs.R_eye_head, inputs.eye_params, inputs.b_eye, lut, pick,
-                         out)
+                         out, cubes=inputs.cubes)
     return out.reshape(H, W)
 
 
@@ -105,7 +197,7 @@ def visual_field_mean(inputs: ShotInputs, width=MEAN_GRID_WIDTH) -> float:
     view = HeadPanorama(width)
     s = np.empty(view.shape)
     kernels.pattern_equirect(*view.tables(), np.eye(3), inputs.R_eye_head, inputs.eye_params,
-                             inputs.b_eye, inputs.lut, -1, s)
+                             inputs.b_eye, inputs.lut, -1, s, cubes=inputs.cubes)
     w = view.solid_angle()
     seen = ~np.isnan(s)
     if not seen.any():
@@ -113,7 +205,7 @@ def visual_field_mean(inputs: ShotInputs, width=MEAN_GRID_WIDTH) -> float:
     return float(np.sum(np.where(seen, s, 0.0) * w) / np.sum(w[seen]))
 
 
-def render_pattern(field, pose, layout, response, view) -> np.ndarray:
+def render_pattern(field, pose, layout, response, view, eye_offsets=None) -> np.ndarray:
     """The response value f(cos θ) at each pixel, before normalisation.
 
     Parameters
@@ -121,8 +213,10 @@ def render_pattern(field, pose, layout, response, view) -> np.ndarray:
     field : FieldVector
     pose : Pose
     layout : Layout
-    response : response object (axial, or full: its axial average is used)
+    response : response object (axial, or full: read as each eye's alignment says)
     view : View
+    eye_offsets : mapping, optional
+        Eye movements for this shot (see :func:`prepare`).
 
     Returns
     -------
@@ -130,18 +224,22 @@ def render_pattern(field, pose, layout, response, view) -> np.ndarray:
         NaN where no eye sees; where two eyes see a pixel, the mean of their values
         unless the view picks one eye.
     """
+    if eye_offsets:
+        layout = layout.moved(eye_offsets)
     inputs = prepare(field, pose, layout, response, "singlet")
     return _signal_map(inputs, view, layout, inputs.lut)
 
 
-def render_signal(field, pose, layout, response, view, product="singlet"):
+def render_signal(field, pose, layout, response, view, product="singlet", eye_offsets=None):
     """(signal map (H, W), visual-field mean signal): the inputs of the modulation."""
+    if eye_offsets:
+        layout = layout.moved(eye_offsets)
     inputs = prepare(field, pose, layout, response, product)
     return _signal_map(inputs, view, layout, inputs.lut), visual_field_mean(inputs)
 
 
 def render(field, pose, layout, response, view, scene=None, gain=0.1, product="singlet",
-           outside=0.25) -> np.ndarray:
+           outside=0.25, eye_offsets=None) -> np.ndarray:
     """Composite the modulation pattern onto a scene.
 
     Parameters
@@ -157,6 +255,8 @@ def render(field, pose, layout, response, view, scene=None, gain=0.1, product="s
         Which reaction product drives the visual signal (s = f or 1 − f).
     outside : float
         Luminance factor for pixels no eye sees (0 black, 1 scene unchanged).
+    eye_offsets : mapping, optional
+        Eye movements for this shot (see :func:`prepare`).
 
     Returns
     -------
@@ -175,6 +275,8 @@ def render(field, pose, layout, response, view, scene=None, gain=0.1, product="s
     o = float(outside)
     if not 0.0 <= o <= 1.0:
         raise MagretinaError(f"outside = {outside!r}: allowed [0, 1]")
+    if eye_offsets:
+        layout = layout.moved(eye_offsets)
     inputs = prepare(field, pose, layout, response, product)
     mean = visual_field_mean(inputs)
     if mean == 0.0:
@@ -196,14 +298,15 @@ def composite_inputs(inputs, mean, layout, view, scene, gain, outside) -> np.nda
         if view.frame == "world" and img.shape[:2] == (H, W) and scene.north_col == W / 2.0:
             kernels.composite_world_aligned(img, *tables, M, inputs.R_eye_head, inputs.eye_params,
                                             inputs.b_eye, inputs.lut, pick, inv_mean, gain, outside,
-                                            out)
+                                            out, cubes=inputs.cubes)
         else:
             kernels.composite_resampled(img, scene.north_col, *tables, M, Q, inputs.R_eye_head,
                                         inputs.eye_params, inputs.b_eye, inputs.lut, pick,
-                                        inv_mean, gain, outside, out)
+                                        inv_mean, gain, outside, out, cubes=inputs.cubes)
         return out
     dirs = np.ascontiguousarray(view.directions(layout).reshape(-1, 3))
     flat = out.reshape(-1, img.shape[2])
     kernels.composite_dirs(img, scene.north_col, dirs, M, Q, inputs.R_eye_head, inputs.eye_params,
-                           inputs.b_eye, inputs.lut, pick, inv_mean, gain, outside, flat)
+                           inputs.b_eye, inputs.lut, pick, inv_mean, gain, outside, flat,
+                           cubes=inputs.cubes)
     return out

@@ -1,9 +1,12 @@
 """Layouts: the set of eyes of one animal, loaded from preset or user TOML files.
 
 A preset is a TOML file in ``renderer/eye/presets/`` with top-level ``name``,
-``description``, ``source`` and one ``[[eye]]`` table per eye whose keys are the
-fields of :class:`renderer.eye.Eye`.  Unknown keys are errors.  This module also
-reports field-of-view bookkeeping along the horizon; it does not render.
+``description``, ``source``, an optional layout-wide ``alignment`` (a mode name or a
+table, see :mod:`renderer.eye.alignment`) and one ``[[eye]]`` table per eye whose
+keys are the fields of :class:`renderer.eye.Eye` (an eye's own ``alignment`` wins).
+Unknown keys are errors.  This module also reports visual-field bookkeeping
+(monocular, binocular, cyclopean and blind widths in a plane of the head) and applies
+eye movements; it does not render.
 """
 
 from __future__ import annotations
@@ -18,7 +21,7 @@ import numpy as np
 from ..errors import ConfigError, MagretinaError
 from .eye import Eye
 
-_TOP_KEYS = {"name", "description", "source", "eye"}
+_TOP_KEYS = {"name", "description", "source", "eye", "alignment"}
 
 
 @dataclass(frozen=True)
@@ -66,6 +69,106 @@ class Layout:
         return {"name": self.name, "description": self.description, "source": self.source,
                 "eyes": [e.describe() for e in self.eyes]}
 
+    def moved(self, offsets) -> "Layout":
+        """The layout after eye movements for one shot.
+
+        Parameters
+        ----------
+        offsets : mapping
+            {eye name or index: (d_azimuth_deg, d_elevation_deg, d_torsion_deg)}
+            (a shorter sequence leaves the rest 0).  Offsets add to each eye's
+            placement angles; its field of view moves with it.
+        """
+        eyes = list(self.eyes)
+        for which, off in dict(offsets).items():
+            k = self.eye_index(which)
+            vals = [float(x) for x in np.atleast_1d(np.asarray(off, dtype=float))]
+            if not 1 <= len(vals) <= 3:
+                raise MagretinaError(f"eye offsets for {which!r}: give (d_azimuth, d_elevation, "
+                                     f"d_torsion) in degrees, got {off!r}")
+            eyes[k] = eyes[k].moved(*vals)
+        return self.with_eyes(eyes)
+
+    def with_alignment(self, alignment, eyes=None) -> "Layout":
+        """The layout with ``alignment`` (an Alignment, mode name or table) for the given
+        eyes (names or indices; default all)."""
+        picked = range(len(self.eyes)) if eyes is None else [self.eye_index(w) for w in eyes]
+        new = list(self.eyes)
+        for k in picked:
+            new[k] = new[k].with_alignment(alignment)
+        return self.with_eyes(new)
+
+    def field_bookkeeping(self, elevation_deg=0.0, step_deg=0.01) -> "FieldBookkeeping":
+        """Widths of the visual field along a circle of constant head elevation.
+
+        Directions are sampled every ``step_deg`` of head azimuth (widths are exact to
+        about one step) and tested with each eye's field-of-view boundary.
+
+        Returns
+        -------
+        FieldBookkeeping
+        """
+        n = int(round(360.0 / float(step_deg)))
+        az = np.radians(-180.0 + (np.arange(n) + 0.5) * 360.0 / n)
+        el = np.radians(float(elevation_deg))
+        d = np.stack([np.cos(el) * np.cos(az), np.cos(el) * np.sin(az),
+                      np.full(n, -np.sin(el))], axis=1)
+        seen = np.stack([e.visible(d @ e.R_head_eye) for e in self.eyes])
+        count = seen.sum(axis=0)
+        w = 360.0 / n
+        return FieldBookkeeping(
+            elevation_deg=float(elevation_deg),
+            monocular_deg=tuple(float(x) * w for x in seen.sum(axis=1)),
+            binocular_deg=float(np.sum(count >= 2)) * w,
+            cyclopean_deg=float(np.sum(count >= 1)) * w,
+            blind_deg=float(np.sum(count == 0)) * w)
+
+
+@dataclass(frozen=True)
+class FieldBookkeeping:
+    """Visual-field widths (degrees) along a circle of constant head elevation.
+
+    Attributes
+    ----------
+    elevation_deg : float
+    monocular_deg : tuple of float
+        Each eye's field width.
+    binocular_deg : float
+        Width seen by two or more eyes.
+    cyclopean_deg : float
+        Width seen by at least one eye.
+    blind_deg : float
+        360° − cyclopean.
+    """
+
+    elevation_deg: float
+    monocular_deg: tuple
+    binocular_deg: float
+    cyclopean_deg: float
+    blind_deg: float
+
+    def as_dict(self) -> dict:
+        return {k: getattr(self, k) for k in self.__dataclass_fields__}
+
+
+def symmetric_bookkeeping(nasal_deg, temporal_deg, psi_deg) -> dict:
+    """Closed-form bookkeeping of a bilaterally symmetric two-eye layout whose optic
+    axes lie at azimuth ±ψ in the plane considered, each eye seeing ``nasal_deg``
+    towards the beak and ``temporal_deg`` away from it:
+
+    monocular = nasal + temporal, binocular = 2(nasal − ψ) (front overlap),
+    cyclopean = 2·monocular − binocular, blind = 360° − cyclopean.
+    Valid while 0 ≤ nasal − ψ and ψ + temporal ≤ 180° (no rear overlap).
+    """
+    mono = float(nasal_deg) + float(temporal_deg)
+    bino = 2.0 * (float(nasal_deg) - float(psi_deg))
+    if bino < 0 or float(psi_deg) + float(temporal_deg) > 180.0:
+        raise MagretinaError("symmetric_bookkeeping: needs nasal_deg >= psi_deg and "
+                             "psi_deg + temporal_deg <= 180")
+    cyc = 2.0 * mono - bino
+    return {"monocular_deg": mono, "binocular_deg": bino, "cyclopean_deg": cyc,
+            "blind_deg": 360.0 - cyc}
+
 
 def preset_names() -> list[str]:
     """Names of the layout presets shipped with the package."""
@@ -84,6 +187,7 @@ def parse_layout(data: dict, source: str = "<layout>") -> Layout:
         problems.append("needs at least one [[eye]] table")
         eye_tables = []
     allowed = {f.name for f in fields(Eye)}
+    default_alignment = data.get("alignment")
     eyes = []
     for i, tbl in enumerate(eye_tables):
         if not isinstance(tbl, dict):
@@ -92,8 +196,11 @@ def parse_layout(data: dict, source: str = "<layout>") -> Layout:
         bad = [k for k in tbl if k not in allowed]
         for k in bad:
             problems.append(f"eye[{i}].{k}: unknown key; allowed: {', '.join(sorted(allowed))}")
+        kw = {k: v for k, v in tbl.items() if k in allowed}
+        if default_alignment is not None and "alignment" not in kw:
+            kw["alignment"] = default_alignment
         try:
-            eyes.append(Eye(**{k: v for k, v in tbl.items() if k in allowed}))
+            eyes.append(Eye(**kw))
         except MagretinaError as exc:
             problems.append(f"eye[{i}]: {exc}")
         except TypeError as exc:

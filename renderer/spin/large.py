@@ -447,3 +447,32 @@ def singlet_yield_spectral(pair: RadicalPair, field_T, *, tol=1e-6, method="binn
     if single:
         return (float(out[0]), float(bound[0])) if return_bound else float(out[0])
     return (out, bound) if return_bound else out
+
+
+# --------------------------------------------------------------------------------------
+# solver-module interface (as renderer.spin.solvers expects: applicable, yields)
+# --------------------------------------------------------------------------------------
+
+NAME = "spectral"
+#: Error bound used when this module runs as a registered solver.
+DEFAULT_TOL = 1e-6
+
+
+def applicable(pair: RadicalPair):
+    """(ok, reason): equal rates and no inter-radical coupling."""
+    if not pair.equal_rates:
+        return False, f"needs equal rates, got k_s = {pair.k_s:g}, k_t = {pair.k_t:g} s^-1"
+    if pair.coupled:
+        return False, "needs uncoupled radicals (exchange_mT = 0 and no dipolar_mT)"
+    return True, ""
+
+
+def yields(pair: RadicalPair, fields_T, progress=None):
+    """Φ_S, Φ_T for field vectors (K, 3) (T), error ≤ DEFAULT_TOL each (solver interface)."""
+    b = np.asarray(fields_T, dtype=np.float64).reshape(-1, 3)
+    out = np.empty(len(b))
+    for i, bi in enumerate(b):
+        out[i] = singlet_yield_spectral(pair, bi, tol=DEFAULT_TOL)
+        if progress is not None:
+            progress(1)
+    return out, 1.0 - out

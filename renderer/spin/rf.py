@@ -12,7 +12,7 @@ so the physical yield is the average over the phase at formation; it is computed
       Φ_S = k_S Σ_αβ X_βα Y_αβ / (i(ε_α − ε_β*)),
       X = R†(1 ⊗ P_S)R,  Y = L₀† ρ₀ L₀  (R, L right/left eigenvectors, L₀ their n = 0 block)
 
-  which for equal rates is a Timmel-like sum with k/(k + i(ε_α − ε_β)).  N grows until
+  which for equal rates is a Timmel-like sum with k/(k + i(ε_α − ε_β)).  N grows (1, 2, 3, ...) until
   Φ_S changes by less than a tolerance;
 * for several frequencies (broadband noise as a seeded sum of random-phase components)
   by direct propagation (:func:`propagated_singlet_yield`): piecewise-constant
@@ -267,7 +267,7 @@ def floquet_singlet_yield(pair: RadicalPair, field_T, rf: RFField, *, n_harmonic
     rf : RFField (or a sequence of components at one frequency)
         Direction in the molecular frame.
     n_harmonics : int, optional
-        Fixed photon cut-off N.  By default N = 2, 4, 6, ... until two successive
+        Fixed photon cut-off N.  By default N = 1, 2, 3, ... until two successive
         values differ by less than ``tol``.
     tol : float
         Convergence tolerance in Φ_S for the automatic cut-off.
@@ -298,10 +298,10 @@ def floquet_singlet_yield(pair: RadicalPair, field_T, rf: RFField, *, n_harmonic
             raise MagretinaError(f"n_harmonics = {n_harmonics!r} must be >= 0")
         phi = _floquet_once(*args, n, pair.k_s, pair.k_t, equal)
         return (phi, {"n_harmonics": n, "change": float("nan")}) if return_info else phi
-    n = 2
+    n = 1
     prev = _floquet_once(*args, n, pair.k_s, pair.k_t, equal)
     while True:
-        n += 2
+        n += 1
         phi = _floquet_once(*args, n, pair.k_s, pair.k_t, equal)
         change = abs(phi - prev)
         if change < tol:

@@ -183,6 +183,11 @@ def load_study(path) -> Study:
     problems = []
     resolved = validate(raw, base, problems)
     if problems:
+        # Also report bad sweep values now, not after the first round of fixes.
+        from .expand import build_axes
+
+        if isinstance(resolved.get("sweep"), dict):
+            build_axes(raw, base, resolved["sweep"], problems, known=set(problems))
         raise ConfigError(problems, source=os.fspath(path))
     return Study(os.fspath(path), base, hashlib.sha256(data).hexdigest(), raw, resolved)
 
@@ -310,9 +315,10 @@ def _check_layout(tbl, base_dir, problems):
                 problems.append(f"layout.eyes.{name}: must be a table of Eye fields")
                 continue
             out["eyes"][name] = check_passthrough(f"layout.eyes.{name}", etbl, Eye, problems,
-                                                  exclude=("name",))
+                                                  exclude=("name",), require=False)
     extra = {k: v for k, v in tbl.items() if k not in ("preset", "file", "eyes")}
-    out.update(check_passthrough("layout", extra, Layout, problems, exclude=("eyes",)))
+    out.update(check_passthrough("layout", extra, Layout, problems, exclude=("eyes",),
+                                 require=False))
     return out
 
 

@@ -161,10 +161,12 @@ def init_fields(cls) -> dict:
     return out
 
 
-def check_passthrough(path, table, cls, problems, *, reserved=(), exclude=()) -> dict:
+def check_passthrough(path, table, cls, problems, *, reserved=(), exclude=(),
+                      require=True) -> dict:
     """Keys of ``table`` (minus ``reserved``) must be constructor keywords of ``cls``.
 
     Returns the keywords to pass (absent ones left to the class's defaults).
+    ``require=False`` for overrides of an object that already exists (a preset).
     """
     allowed = {k: v for k, v in init_fields(cls).items() if k not in exclude}
     kw = {}
@@ -177,6 +179,6 @@ def check_passthrough(path, table, cls, problems, *, reserved=(), exclude=()) ->
         else:
             kw[key] = value
     for key, default in allowed.items():
-        if default is REQUIRED and key not in table:
+        if require and default is REQUIRED and key not in table:
             problems.append(f"{path}.{key}: missing (required by {cls.__name__})")
     return kw

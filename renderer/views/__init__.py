@@ -7,11 +7,16 @@ is one new file and one line here.
 from .base import View
 from .eyedisc import EyeDisc
 from .panorama import HeadPanorama, WorldPanorama
+from .perspective import PerspectiveScreen
+from .retina import RetinaView
 
 REGISTRY = {
     "world-panorama": WorldPanorama,
     "head-panorama": HeadPanorama,
     "eye-disc": EyeDisc,
+    "perspective": PerspectiveScreen,
+    "retina": RetinaView,
 }
 
-__all__ = ["View", "WorldPanorama", "HeadPanorama", "EyeDisc", "REGISTRY"]
+__all__ = ["View", "WorldPanorama", "HeadPanorama", "EyeDisc", "PerspectiveScreen", "RetinaView",
+           "REGISTRY"]

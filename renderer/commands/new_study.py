@@ -1,0 +1,28 @@
+"""``magretina new-study``: write a commented example study file (an invented scenario)."""
+
+from __future__ import annotations
+
+
+def register(sub):
+    p = sub.add_parser("new-study", help="write a commented example study file",
+                       description="Write a commented example study (TOML) to start from.")
+    p.add_argument("path", nargs="?", default="study.toml", help="file to write (default study.toml)")
+    p.add_argument("--force", action="store_true", help="overwrite an existing file")
+    p.set_defaults(func=run)
+
+
+def example_text() -> str:
+    from importlib import resources
+
+    return (resources.files("renderer.study") / "examples" / "example_study.toml").read_text(
+        encoding="utf-8")
+
+
+def run(a) -> int:
+    from ..io import atomic_write_text
+    from ._common import refuse_overwrite
+
+    refuse_overwrite([a.path], a.force)
+    atomic_write_text(a.path, example_text())
+    print(f"wrote {a.path}; check it with: magretina run {a.path} --dry-run")
+    return 0

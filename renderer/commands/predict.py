@@ -1,0 +1,147 @@
+"""``magretina predict``: heading information, precision and contrast for one configuration.
+
+Takes the same field, pose and model flags as ``render`` plus a receptor mosaic, a
+count model and a noise model; prints a table (or ``--json``) of the metrics of
+:func:`renderer.predict.summary.predict_summary` and optionally writes the plots.
+Every output states that the numbers are model predictions under the stated
+assumptions, not measurements.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import sys
+
+from ..errors import MagretinaError
+from . import _common
+
+
+def add_prediction_args(p):
+    g = p.add_argument_group("receptor mosaic")
+    g.add_argument("--density", type=float, default=0.05,
+                   help="receptor density (per deg² of visual field, or per mm² of retina with "
+                        "--density-unit mm2); default 0.05 per deg²")
+    g.add_argument("--density-unit", default="deg2", help="deg2 | mm2")
+    g.add_argument("--mosaic", default="jittered", help="jittered | poisson-disc")
+    g.add_argument("--mosaic-seed", type=int, default=0, help="seed of the receptor placement")
+    g.add_argument("--eccentricity", default="",
+                   help="relative density profile ECC:REL,... (degrees from the optic axis : "
+                        "fraction of the peak density), e.g. 0:1,40:0.5,90:0.2")
+    g.add_argument("--pool-deg", type=float, default=0.0,
+                   help="pool receptors over this angular radius before readout (degrees; 0 = no)")
+    g = p.add_argument_group("counts and noise")
+    g.add_argument("--flux", type=float, default=1.0e4,
+                   help="photon absorptions per second per receptor at linear luminance 1 (s^-1)")
+    g.add_argument("--integration-ms", type=float, default=100.0, help="integration time, ms")
+    g.add_argument("--luminance", type=float, default=1.0,
+                   help="linear scene luminance seen by the receptors (1 = the flux reference)")
+    g.add_argument("--noise", default="poisson", help="poisson | gaussian")
+    g.add_argument("--noise-floor", type=float, default=1.0,
+                   help="gaussian noise: additive floor, counts rms (shot noise added)")
+    g.add_argument("--heading-step", type=float, default=2.0,
+                   help="heading grid step for the Cramér–Rao curve, degrees")
+    g.add_argument("--threshold", type=float, default=0.01,
+                   help="contrast threshold (Weber fraction); default 0.01, a rule of thumb for "
+                        "large stimuli in humans (common practice, no source)")
+
+
+def spec_from_args(a):
+    from ..mosaic import MosaicSpec
+
+    ecc, rel = [], []
+    if a.eccentricity:
+        for item in str(a.eccentricity).split(","):
+            try:
+                e, r = item.split(":")
+                ecc.append(float(e))
+                rel.append(float(r))
+            except ValueError:
+                raise MagretinaError(f"--eccentricity {a.eccentricity!r}: expected ECC:REL pairs "
+                                     f"separated by commas, e.g. 0:1,40:0.5") from None
+    return MosaicSpec(density=a.density, unit=a.density_unit, method=a.mosaic, seed=a.mosaic_seed,
+                      eccentricity_deg=tuple(ecc), relative_density=tuple(rel),
+                      pool_radius_deg=a.pool_deg)
+
+
+def counts_from_args(a):
+    from ..errors import check_range
+    from ..predict import CountModel, make_noise
+
+    t = check_range("--integration-ms", a.integration_ms, 0.0, None, lo_open=True, unit="ms")
+    noise = make_noise(a.noise) if a.noise != "gaussian" else make_noise("gaussian",
+                                                                         floor_counts=a.noise_floor)
+    return CountModel(flux_per_s=check_range("--flux", a.flux, 0.0, None, lo_open=True, unit="s^-1"),
+                      integration_s=t * 1e-3, gain=a.gain, luminance=a.luminance, noise=noise)
+
+
+def register(sub):
+    p = sub.add_parser("predict", help="heading information and contrast for one configuration",
+                       description="Fisher information about heading, Cramér–Rao bound, "
+                                   "inclination-compass signature and contrast. These are model "
+                                   "predictions under stated assumptions, not measurements.")
+    _common.add_field_args(p)
+    _common.add_pose_args(p)
+    _common.add_model_args(p)
+    add_prediction_args(p)
+    g = p.add_argument_group("output")
+    g.add_argument("--json", action="store_true", help="print JSON instead of a table")
+    g.add_argument("--plots", metavar="DIR", help="also write the plots (PNG) into DIR")
+    g.add_argument("--force", action="store_true", help="overwrite existing plot files")
+    p.set_defaults(func=run)
+
+
+def run(a) -> int:
+    import numpy as np
+
+    from ..eye import load_layout
+    from ..pose import Pose
+    from ..predict import CAUTION
+    from ..predict.summary import predict_summary
+
+    field = _common.field_from_args(a)
+    pose = Pose(a.yaw, a.pitch, a.roll)
+    layout = load_layout(a.layout)
+    response = _common.response_from_args(a)
+    spec = spec_from_args(a)
+    counts = counts_from_args(a)
+    from ..errors import check_range
+
+    step = check_range("--heading-step", a.heading_step, 0.0, 90.0, lo_open=True, unit="degrees")
+    plot_paths = []
+    if a.plots:
+        names = ["response.png", "pattern.png", "precision.png"]
+        plot_paths = [os.path.join(a.plots, n) for n in names]
+        _common.refuse_overwrite(plot_paths, a.force)
+    metrics, fr = predict_summary(field, pose, layout, response, spec, counts, a.product,
+                                  np.arange(0.0, 360.0, step), a.threshold)
+    assumptions = {"field": field.as_dict() if hasattr(field, "as_dict") else str(field),
+                   "pose": pose.as_dict(), "layout": layout.name,
+                   "response": response.describe(), "product": a.product,
+                   "mosaic": spec.describe(), "counts": counts.describe(),
+                   "normalisation": "m = s/<s> - 1, <s> the mean over all receptors at each heading",
+                   "heading_step_deg": step}
+    if a.plots:
+        from .. import plots
+
+        plots.plot_response(response, plot_paths[0], a.product)
+        plots.plot_pattern(field, pose, layout, response, plot_paths[1], product=a.product,
+                           gain=a.gain)
+        plots.plot_precision(fr, plot_paths[2])
+    if a.json:
+        json.dump({"caution": CAUTION, "assumptions": assumptions, "metrics": metrics,
+                   "crb_deg_vs_heading": {"headings_deg": fr.headings_deg.tolist(),
+                                          "crb_deg": fr.crb_deg.tolist()},
+                   "plots": plot_paths}, sys.stdout, indent=2, default=str, allow_nan=True)
+        print()
+        return 0
+    print(f"CAUTION: {CAUTION}")
+    print(f"layout {layout.name}, response {response.describe()}, product {a.product}")
+    print(f"mosaic {spec.describe()}")
+    print(f"counts {counts.describe()}")
+    width = max(len(k) for k in metrics)
+    for k, v in metrics.items():
+        print(f"  {k:<{width}}  {v:.6g}")
+    for pth in plot_paths:
+        print(pth)
+    return 0

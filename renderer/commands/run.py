@@ -1,0 +1,41 @@
+"""``magretina run``: run (or resume) a study described by a TOML file."""
+
+from __future__ import annotations
+
+
+def register(sub):
+    p = sub.add_parser("run", help="run or resume a study (TOML) into a study folder",
+                       description="Run a study: validate the whole file first, then render "
+                                   "what is missing, resumably. Outputs are model "
+                                   "predictions, not observations.")
+    p.add_argument("study", help="study file (TOML); see `magretina new-study`")
+    p.add_argument("--out", help="study folder (default outputs/<study name>)")
+    p.add_argument("--jobs", type=int, default=1, help="worker processes (default 1)")
+    p.add_argument("--executor", default="local", choices=("local", "dask"),
+                   help="local process pool or Dask (default local)")
+    p.add_argument("--scheduler", help="address of an existing Dask scheduler (tcp://HOST:PORT)")
+    p.add_argument("--dry-run", action="store_true",
+                   help="print shot and frame counts, size estimate, first shots; render nothing")
+    p.add_argument("--force", action="store_true",
+                   help="replace another study's folder (or use a non-empty folder)")
+    p.add_argument("--quiet", action="store_true", help="no progress bars")
+    p.set_defaults(func=run)
+
+
+def run(a) -> int:
+    from ..errors import MagretinaError
+    from ..study import run_study
+
+    if a.jobs < 1:
+        raise MagretinaError(f"--jobs {a.jobs}: must be >= 1")
+    if a.scheduler and a.executor != "dask":
+        raise MagretinaError("--scheduler needs --executor dask")
+    s = run_study(a.study, out_dir=a.out, jobs=a.jobs, executor=a.executor,
+                  scheduler=a.scheduler, dry=a.dry_run, force=a.force, progress=not a.quiet)
+    if a.dry_run:
+        return 0
+    print(f"study folder {s['out']}: {s['shots']} shots, {s['frames']} frames; rendered "
+          f"{s['frames_rendered']} frames of {s['shots_rendered']} shots in {s['wall_s']:.1f} s "
+          f"({s['executor']}, {s['jobs']} job(s))")
+    print("These are predictions of a model under the study's hypothesis, not measurements.")
+    return 0

@@ -1,0 +1,216 @@
+"""``magretina spin-plan``, ``rf-spectrum`` and ``rf-table``: large pairs and RF conditions.
+
+``spin-plan PAIR`` prints which method a full-sphere table would use, its memory and
+its estimated time, and with ``--out`` runs it resumably (per-direction results are
+cached; Ctrl-C and run again to resume).  ``rf-spectrum PAIR`` writes the change of
+the singlet yield against RF frequency at one geometry (JSON + PNG plot);
+``rf-table PAIR`` writes a full-sphere response table with an RF field on.  The work
+is in :mod:`renderer.spin.planner`, :mod:`renderer.spin.large`,
+:mod:`renderer.spin.rf`; this module parses arguments and prints.
+"""
+
+from __future__ import annotations
+
+import math
+import os
+
+import numpy as np
+
+from ..errors import MagretinaError, check_range
+
+NOTE = ("Model prediction of the radical-pair hypothesis for the stated parameters; not a "
+        "measurement of any receptor or animal.")
+
+
+def _pair_args(p):
+    p.add_argument("pair", metavar="DEF_OR_PRESET", help="radical-pair definition (TOML) or preset name")
+    p.add_argument("--field-uT", type=float, required=True, help="static field magnitude |B0|, µT")
+    p.add_argument("--k-s", type=float, default=None, help="singlet rate, s^-1 (default: the file's)")
+    p.add_argument("--k-t", type=float, default=None, help="triplet rate, s^-1 (default: k_s)")
+
+
+def _load(args):
+    from ..spin.definition import load_pair
+
+    check_range("--field-uT", args.field_uT, 0.0, 1e9, lo_open=True, unit="uT")
+    if args.k_t is not None and args.k_s is None:
+        raise MagretinaError("--k-t needs --k-s as well")
+    return load_pair(args.pair, k_s=args.k_s, k_t=args.k_t)
+
+
+def _direction(text, name):
+    try:
+        v = np.array([float(x) for x in str(text).split(",")])
+    except ValueError:
+        raise MagretinaError(f"{name} = {text!r} must be three comma-separated numbers") from None
+    if v.shape != (3,) or not np.all(np.isfinite(v)) or np.linalg.norm(v) == 0:
+        raise MagretinaError(f"{name} = {text!r} must be a non-zero 3-vector 'x,y,z'")
+    return v / np.linalg.norm(v)
+
+
+def register(subparsers):
+    p = subparsers.add_parser("spin-plan", help="estimate (and run) a large spin table resumably",
+                              description="Say which method, memory and time a full-sphere "
+                                          "singlet-yield table needs; with --out, run it with "
+                                          "per-direction caching. " + NOTE)
+    _pair_args(p)
+    p.add_argument("--lmax", type=int, default=16, help="highest harmonic degree (even)")
+    p.add_argument("--method", default="auto",
+                   choices=["auto", "separable", "spectral", "eigenbasis", "liouville",
+                            "montecarlo", "semiclassical"],
+                   help="solver ('semiclassical' is the Schulten-Wolynes approximation)")
+    p.add_argument("--tol", type=float, default=1e-6, help="error bound of the spectral method")
+    p.add_argument("--samples", type=int, default=256, help="Monte Carlo samples per direction")
+    p.add_argument("--out", default=None, metavar="TABLE", help="run and write the table (.npz)")
+    p.add_argument("--run-dir", default=None, help="folder for per-direction results (resume)")
+    p.set_defaults(func=cmd_plan)
+
+    s = subparsers.add_parser("rf-spectrum", help="singlet-yield change against RF frequency",
+                              description="Resonance spectrum: ΔΦ_S (RF on − off) against "
+                                          "frequency at a fixed geometry (Floquet, phase-"
+                                          "averaged). " + NOTE)
+    _pair_args(s)
+    s.add_argument("--field-dir", default="0,0,1", help="B0 direction, molecular frame 'x,y,z'")
+    s.add_argument("--rf-nT", type=float, required=True, help="RF peak amplitude, nT")
+    s.add_argument("--rf-dir", default="1,0,0", help="RF direction, molecular frame 'x,y,z'")
+    s.add_argument("--f-min-MHz", type=float, default=0.1)
+    s.add_argument("--f-max-MHz", type=float, default=5.0)
+    s.add_argument("--points", type=int, default=50)
+    s.add_argument("--out", required=True, help="output JSON; the plot goes beside it (.png)")
+    s.set_defaults(func=cmd_spectrum)
+
+    t = subparsers.add_parser("rf-table", help="full-sphere response table with an RF field on",
+                              description="Singlet-yield table with an RF field at a fixed angle "
+                                          "to the static field, its azimuth about B0 averaged. "
+                                          + NOTE)
+    _pair_args(t)
+    t.add_argument("--rf-nT", type=float, required=True, help="RF peak amplitude, nT")
+    t.add_argument("--rf-MHz", type=float, required=True, help="RF frequency, MHz")
+    t.add_argument("--rf-angle-deg", type=float, default=90.0, help="angle between B1 and B0")
+    t.add_argument("--lmax", type=int, default=8)
+    t.add_argument("--out", required=True, metavar="TABLE")
+    t.add_argument("--run-dir", default=None)
+    t.set_defaults(func=cmd_rf_table)
+    return p
+
+
+def _bar(total, desc):
+    from tqdm import tqdm
+
+    return tqdm(total=total, unit="dir", desc=desc)
+
+
+def _lmax(v):
+    if v < 0 or v % 2 or v > 64:
+        raise MagretinaError(f"--lmax = {v} is not allowed; use an even degree in [0, 64]")
+    return v
+
+
+def cmd_plan(args) -> int:
+    from ..response.harmonic import lebedev_grid, lebedev_order_for
+    from ..spin import singlet_yield
+    from ..spin.planner import compute_table, plan
+
+    pair = _load(args)
+    lmax = _lmax(args.lmax)
+    b = args.field_uT * 1e-6
+    check_range("--tol", args.tol, 0.0, 0.1, lo_open=True)
+    n_nodes = len(lebedev_grid(lebedev_order_for(2 * lmax + 5))[0])
+    n_solve = (n_nodes + 1) // 2
+    m = args.method
+    pl = plan(pair, n_solve, field_T=b, method="auto" if m in ("auto", "semiclassical") else m,
+              tol=args.tol, n_samples=args.samples)
+    print(f"radical pair {args.pair}: Hilbert dimension {pair.dim} (A {pair.a.dim} x B {pair.b.dim}), "
+          f"{n_nodes} directions, {n_solve} solved (inversion symmetry)")
+    print(pl.summary())
+    chosen = pl.method if m == "auto" else m
+    if m == "semiclassical":
+        print("NOTE: 'semiclassical' is the Schulten-Wolynes APPROXIMATION, not an exact yield")
+    if args.out is None:
+        return 0
+    if chosen == "spectral":
+        from ..spin.large import singlet_yield_spectral
+
+        def fn(bi):
+            return singlet_yield_spectral(pair, bi, tol=args.tol)
+    elif chosen == "montecarlo":
+        from ..spin.montecarlo import singlet_yield_montecarlo
+
+        def fn(bi):
+            return singlet_yield_montecarlo(pair, bi, n_samples=args.samples, return_error=False)
+    elif chosen == "semiclassical":
+        from ..spin.semiclassical import singlet_yield_semiclassical
+
+        def fn(bi):
+            return singlet_yield_semiclassical(pair, bi)
+    else:
+        def fn(bi):
+            return singlet_yield(pair, bi, method=chosen)
+    params = {"pair": pair.describe(), "method": chosen, "tol": args.tol, "samples": args.samples}
+    with _bar(n_solve, chosen) as bar:
+        table = compute_table(fn, b, params, lmax=lmax, run_dir=args.run_dir, progress=bar.update,
+                              meta={"pair_input": os.fspath(args.pair)})
+    table.save(args.out)
+    s = table.summary()
+    print(f"wrote {args.out}: anisotropy {s['anisotropy']:.4g}, fit residual max "
+          f"{s['residual_max']:.2g}. {NOTE}")
+    return 0
+
+
+def cmd_spectrum(args) -> int:
+    from tqdm import tqdm
+
+    from ..io import atomic_write_json
+    from ..spin.rf import plot_resonance_spectrum, resonance_spectrum
+
+    pair = _load(args)
+    check_range("--rf-nT", args.rf_nT, 0.0, None, lo_open=True, unit="nT")
+    lo = check_range("--f-min-MHz", args.f_min_MHz, 0.0, None, lo_open=True, unit="MHz")
+    hi = check_range("--f-max-MHz", args.f_max_MHz, lo, None, lo_open=True, unit="MHz")
+    if not 2 <= args.points <= 10000:
+        raise MagretinaError(f"--points = {args.points} is out of range; allowed [2, 10000]")
+    b0 = args.field_uT * 1e-6 * _direction(args.field_dir, "--field-dir")
+    freqs = np.linspace(lo, hi, args.points) * 1e6
+    with tqdm(total=len(freqs), unit="freq", desc="RF spectrum") as bar:
+        spec = resonance_spectrum(pair, b0, args.rf_nT * 1e-9, freqs,
+                                  _direction(args.rf_dir, "--rf-dir"), progress=bar.update)
+    atomic_write_json(args.out, spec.to_dict())
+    png = os.path.splitext(args.out)[0] + ".png"
+    plot_resonance_spectrum(spec, png)
+    i = int(np.argmax(np.abs(spec.delta)))
+    print(f"wrote {args.out} and {png}: largest |ΔΦ_S| = {abs(spec.delta[i]):.3g} at "
+          f"{freqs[i] / 1e6:.4g} MHz (free-electron Larmor {spec.larmor_Hz / 1e6:.4g} MHz). {NOTE}")
+    return 0
+
+
+def cmd_rf_table(args) -> int:
+    from ..spin.planner import compute_table, plan
+    from ..spin.rf import RFField, rf_yield_relative
+
+    pair = _load(args)
+    lmax = _lmax(args.lmax)
+    b = args.field_uT * 1e-6
+    amp = check_range("--rf-nT", args.rf_nT, 0.0, None, unit="nT") * 1e-9
+    f = check_range("--rf-MHz", args.rf_MHz, 0.0, None, lo_open=True, unit="MHz") * 1e6
+    ang = check_range("--rf-angle-deg", args.rf_angle_deg, 0.0, 180.0, unit="deg")
+    RFField(amp, f).check_against([0.0, 0.0, b])
+    from ..response.harmonic import lebedev_grid, lebedev_order_for
+
+    n_solve = (len(lebedev_grid(lebedev_order_for(2 * lmax + 5))[0]) + 1) // 2
+    n_psi = 1 if ang % 180 == 0 else 4
+    pl = plan(pair, n_solve * n_psi, field_T=b, rf=True)
+    print(pl.summary())
+
+    def fn(bi):
+        return rf_yield_relative(pair, bi, amp, f, ang)
+
+    params = {"pair": pair.describe(), "method": "floquet", "rf_amplitude_T": amp,
+              "rf_frequency_Hz": f, "rf_angle_deg": ang, "rf_azimuths": n_psi}
+    with _bar(n_solve, "RF table") as bar:
+        table = compute_table(fn, b, params, lmax=lmax, run_dir=args.run_dir, progress=bar.update,
+                              meta={"pair_input": os.fspath(args.pair), "rf": True})
+    table.save(args.out)
+    s = table.summary()
+    print(f"wrote {args.out}: RF on ({args.rf_nT:g} nT, {args.rf_MHz:g} MHz, {ang:g} deg to B0), "
+          f"anisotropy {s['anisotropy']:.4g}. {NOTE}")
+    return 0

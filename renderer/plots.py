@@ -1,0 +1,177 @@
+"""Figures for people: response curves, patterns with θ contours, heading precision, sweeps.
+
+Every function draws one matplotlib figure on the Agg canvas (``matplotlib.figure.
+Figure`` with ``FigureCanvasAgg``: no pyplot state, no display needed) and writes it
+as a PNG atomically, returning the path.  Titles carry the caution that the curves
+are model predictions where a reader could take them for data.  This module does not
+compute predictions; it draws what :mod:`renderer.predict` and the pipeline give it.
+"""
+
+from __future__ import annotations
+
+import io
+
+import numpy as np
+
+from .errors import MagretinaError
+from .io import atomic_write_bytes
+
+CAPTION = "model prediction, not a measurement"
+
+
+def _figure(figsize):
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+    from matplotlib.figure import Figure
+
+    fig = Figure(figsize=figsize, dpi=100, layout="constrained")
+    FigureCanvasAgg(fig)
+    return fig
+
+
+def _save(fig, path, dpi=100):
+    buf = io.BytesIO()
+    fig.savefig(buf, format="png", dpi=dpi)
+    return atomic_write_bytes(path, buf.getvalue())
+
+
+def plot_response(response, path, product="singlet", n=361, title=None):
+    """The receptor response against θ, polar and Cartesian side by side.
+
+    Parameters
+    ----------
+    response : axial response (or full: its axial average)
+    path : output PNG
+    product : "singlet" or "triplet" (plots the signal s = f or 1 − f)
+    """
+    from .pipeline import response_lut
+
+    theta = np.linspace(0.0, np.pi, n)
+    lut = response_lut(response, product, 4097)
+    from .kernels import lut_lookup_numpy
+
+    s = lut_lookup_numpy(lut, np.cos(theta))
+    fig = _figure((9, 4))
+    ax1 = fig.add_subplot(1, 2, 1, projection="polar")
+    th_full = np.concatenate([theta, 2 * np.pi - theta[::-1]])
+    ax1.plot(th_full, np.concatenate([s, s[::-1]]), color="C0")
+    ax1.set_theta_zero_location("N")
+    ax1.set_title("signal vs θ (polar; 0° = receptor axis)", fontsize=9)
+    ax2 = fig.add_subplot(1, 2, 2)
+    ax2.plot(np.degrees(theta), s, color="C0")
+    ax2.set_xlabel("θ, angle between receptor axis and field (degrees)")
+    ax2.set_ylabel(f"{product} signal")
+    ax2.set_xlim(0, 180)
+    ax2.set_xticks(range(0, 181, 30))
+    ax2.grid(alpha=0.3)
+    fig.suptitle(title or f"Receptor response ({CAPTION})", fontsize=10)
+    return _save(fig, path)
+
+
+def plot_pattern(field, pose, layout, response, path, width=720, frame="head", product="singlet",
+                 gain=1.0, contour_step_deg=15.0, title=None):
+    """The modulation pattern on a panorama with iso-contours of θ.
+
+    θ is the angle between each pixel's view direction and the field axis, which
+    is the receptor–field angle for receptors normal to a retina centred on the nodal
+    point (the layout presets); for other eyes it is a guide to the field geometry.
+
+    Parameters
+    ----------
+    frame : "head" or "world" panorama
+    gain : modulation gain, m = gain·(s/⟨s⟩ − 1)
+    """
+    from . import pipeline
+    from .views import HeadPanorama, WorldPanorama
+
+    if frame not in ("head", "world"):
+        raise MagretinaError(f"plot frame = {frame!r}: allowed head, world")
+    view = HeadPanorama(width) if frame == "head" else WorldPanorama(width)
+    s, mean = pipeline.render_signal(field, pose, layout, response, view, product)
+    m = gain * (s / mean - 1.0)
+    d = view.directions()
+    b = np.asarray(field.ned_T, float)
+    tot = np.linalg.norm(b)
+    fig = _figure((10, 5.4))
+    ax = fig.add_subplot(1, 1, 1)
+    lim = float(np.nanmax(np.abs(m))) if np.isfinite(m).any() else 1.0
+    lim = lim if lim > 0 else 1.0
+    im = ax.imshow(m, extent=(-180, 180, -90, 90), origin="upper", cmap="RdBu_r", vmin=-lim,
+                   vmax=lim, interpolation="nearest")
+    fig.colorbar(im, ax=ax, shrink=0.8, label="modulation m")
+    if tot > 0:
+        b_frame = b / tot if frame == "world" else pose.R_head_world @ (b / tot)
+        theta = np.degrees(np.arccos(np.clip(d @ b_frame, -1.0, 1.0)))
+        az = np.linspace(-180, 180, view.shape[1], endpoint=False) + 180.0 / view.shape[1]
+        el = 90 - (np.arange(view.shape[0]) + 0.5) * 180.0 / view.shape[0]
+        levels = np.arange(contour_step_deg, 180.0, contour_step_deg)
+        cs = ax.contour(az, el, theta, levels=levels, colors="k", linewidths=0.6, alpha=0.7)
+        ax.clabel(cs, fmt="%g°", fontsize=7)
+    ax.set_xlabel("azimuth (degrees, " + ("from the head's forward axis" if frame == "head"
+                                          else "from geographic north") + ")")
+    ax.set_ylabel("elevation (degrees)")
+    ax.set_xticks(range(-180, 181, 45))
+    ax.set_yticks(range(-90, 91, 30))
+    ax.set_title(title or f"Modulation pattern, θ contours every {contour_step_deg:g}° "
+                 f"({CAPTION})", fontsize=10)
+    return _save(fig, path)
+
+
+def plot_precision(fisher_result, path, title=None):
+    """Cramér–Rao bound on heading error against heading, polar (layout and each eye)."""
+    fr = fisher_result
+    psi = np.radians(np.append(fr.headings_deg, fr.headings_deg[:1]))
+    fig = _figure((6, 6))
+    ax = fig.add_subplot(1, 1, 1, projection="polar")
+    ax.set_theta_zero_location("N")
+    ax.set_theta_direction(-1)  # clockwise, like compass headings
+    crb = fr.crb_deg
+    finite = np.isfinite(crb)
+    if not finite.any():
+        ax.text(0.5, 0.5, "no heading information (J = 0)", transform=ax.transAxes, ha="center")
+    else:
+        ax.plot(psi, np.append(crb, crb[:1]), color="k", label="layout")
+        for k, name in enumerate(fr.eye_names):
+            ce = fr.crb_eye_deg[:, k]
+            if np.isfinite(ce).any():
+                ax.plot(psi, np.append(ce, ce[:1]), label=name, alpha=0.8)
+        ax.legend(loc="lower left", bbox_to_anchor=(-0.1, -0.12), fontsize=8)
+    ax.set_title(title or f"Cramér–Rao bound on heading error (degrees)\nvs heading ({CAPTION})",
+                 fontsize=10)
+    return _save(fig, path)
+
+
+def plot_metric_sweep(x, series, path, xlabel="sweep value", ylabel="metric", title=None):
+    """One or more metrics against a sweep axis.
+
+    Parameters
+    ----------
+    x : (n,) numbers, or strings (drawn as categories)
+    series : dict label -> (n,) values
+    """
+    if not series:
+        raise MagretinaError("plot_metric_sweep: no metric series given")
+    xs = list(x)
+    numeric = all(isinstance(v, (int, float, np.integer, np.floating)) for v in xs)
+    fig = _figure((7, 4))
+    ax = fig.add_subplot(1, 1, 1)
+    pos = np.asarray(xs, float) if numeric else np.arange(len(xs))
+    order = np.argsort(pos, kind="stable")
+    for label, y in series.items():
+        y = np.asarray(y, float)
+        if y.shape[0] != len(xs):
+            raise MagretinaError(f"plot_metric_sweep: series {label!r} has {y.shape[0]} values "
+                                 f"for {len(xs)} x values")
+        ax.plot(pos[order], y[order], marker="o", label=str(label))
+    if not numeric:
+        ax.set_xticks(pos)
+        ax.set_xticklabels([str(v) for v in xs], rotation=30, ha="right")
+    ax.set_xlabel(xlabel)
+    ax.set_ylabel(ylabel)
+    ax.grid(alpha=0.3)
+    if len(series) > 1:
+        ax.legend(fontsize=8)
+    ax.set_title(title or f"{ylabel} vs {xlabel} ({CAPTION})", fontsize=10)
+    return _save(fig, path)
+
+
+__all__ = ["plot_response", "plot_pattern", "plot_precision", "plot_metric_sweep", "CAPTION"]

@@ -1,0 +1,517 @@
+"""A static HTML report of a finished study, and a headless-browser check of it.
+
+:func:`build_report` reads a study folder written by the study runner
+(``study.json``, ``manifest.jsonl``, ``metrics.csv``, the frame files) and writes
+one HTML file beside them: the caution, the study's parameters (sweep axes and the
+resolved configuration), a contact sheet of thumbnails each linking to its full
+image, plots of the metrics against every sweep axis (and against the frame index
+within shots), and the metrics table.  Thumbnails and plots are embedded as PNG
+data URIs and the page has no scripts, fonts or links outside the folder, so it
+opens from disk with no server and no network.  :func:`browser_check` loads a page
+in headless Chromium over the DevTools protocol on a pipe (no extra packages) and
+reports console errors and whether every image decoded.  This module does not run
+studies.
+"""
+
+from __future__ import annotations
+
+import base64
+import csv
+import html
+import io
+import json
+import math
+import os
+import shutil
+import subprocess
+import tempfile
+import time
+
+import numpy as np
+
+from .errors import MagretinaError
+from .io import atomic_write_text
+
+REPORT_NAME = "report.html"
+CAUTION = ("The images and numbers in this report are predictions of a model under the stated "
+           "assumptions (field, eye geometry, receptor alignment hypothesis, response function, "
+           "gain, receptor mosaic and noise model). They are not measurements of any animal.")
+
+#: Metrics drawn against the sweep axes first, if present (others follow up to the limit).
+_PREFERRED = ("crb_mean_deg", "crb_at_yaw_deg", "asymmetry_rms", "asymmetry_dprime_mean")
+_MAX_PLOTS = 12
+
+
+# ---------------------------------------------------------------------------
+# reading a study folder
+# ---------------------------------------------------------------------------
+
+def _read_json(path):
+    try:
+        with open(path, encoding="utf-8") as fh:
+            return json.load(fh)
+    except OSError as exc:
+        raise MagretinaError(f"{path}: cannot read ({exc.strerror})") from None
+    except ValueError as exc:
+        raise MagretinaError(f"{path}: not valid JSON ({exc})") from None
+
+
+def _read_manifest(path):
+    out = {}
+    if not os.path.isfile(path):
+        return out
+    with open(path, encoding="utf-8") as fh:
+        for line in fh:
+            line = line.strip()
+            if not line:
+                continue
+            try:
+                e = json.loads(line)
+                out[int(e["shot"])] = e
+            except (ValueError, KeyError, TypeError):
+                continue  # torn line of an interrupted run
+    return out
+
+
+def _read_csv(path):
+    if not os.path.isfile(path):
+        return [], []
+    with open(path, newline="", encoding="utf-8") as fh:
+        rows = list(csv.reader(fh))
+    if not rows:
+        return [], []
+    return rows[0], rows[1:]
+
+
+def read_study(study_dir) -> dict:
+    """The parts of a finished study folder the report uses.
+
+    Raises MagretinaError if the folder is missing, holds no ``study.json`` or has no
+    finished shot in ``manifest.jsonl``.
+    """
+    d = os.fspath(study_dir)
+    if not os.path.isdir(d):
+        raise MagretinaError(f"study folder {d}: no such folder")
+    sj = os.path.join(d, "study.json")
+    if not os.path.isfile(sj):
+        raise MagretinaError(f"study folder {d}: no study.json (not a study output folder; run "
+                             f"'magretina run STUDY.toml --out {d}' first)")
+    sidecar = _read_json(sj)
+    entries = _read_manifest(os.path.join(d, "manifest.jsonl"))
+    if not entries:
+        raise MagretinaError(f"study folder {d}: no finished shots (manifest.jsonl is missing or "
+                             f"empty); run or resume the study first")
+    header, rows = _read_csv(os.path.join(d, "metrics.csv"))
+    return {"dir": d, "sidecar": sidecar, "entries": entries, "metrics_header": header,
+            "metrics_rows": rows}
+
+
+# ---------------------------------------------------------------------------
+# building blocks
+# ---------------------------------------------------------------------------
+
+def _data_uri_png(data: bytes) -> str:
+    return "data:image/png;base64," + base64.b64encode(data).decode("ascii")
+
+
+def _thumbnail(path, px):
+    from PIL import Image
+
+    with Image.open(path) as im:
+        im = im.convert("RGB") if im.mode not in ("RGB", "L") else im
+        im.thumbnail((px, px))
+        buf = io.BytesIO()
+        im.save(buf, format="PNG", optimize=True)
+        return buf.getvalue(), im.size
+
+
+def _frames(study, limit):
+    out = []
+    for idx in sorted(study["entries"]):
+        e = study["entries"][idx]
+        for rec in sorted(e.get("files", []), key=lambda r: (str(r.get("view")), r.get("frame", -1),
+                                                              r["path"])):
+            p = rec.get("path", "")
+            if rec.get("encoding", "png8") != "png8" or not p.endswith(".png"):
+                continue
+            if os.path.isfile(os.path.join(study["dir"], p)):
+                out.append((e.get("shot_id", str(idx)), rec.get("view", ""), rec.get("frame"), p))
+    return out[:limit], len(out)
+
+
+def _float(v):
+    try:
+        return float(v)
+    except (TypeError, ValueError):
+        return math.nan
+
+
+def _sweep_plots(study, tmp):
+    """PNG bytes of metric-vs-axis plots: list of (caption, bytes)."""
+    from . import plots
+
+    header, rows = study["metrics_header"], study["metrics_rows"]
+    if not header or not rows:
+        return []
+    axes = [a["name"] for a in study["sidecar"].get("axes", []) if a.get("name") in header]
+    skip = {"shot_id", "frame", "t_s", "coil", "response", *axes}
+    cols = {h: [r[i] if i < len(r) else "" for r in rows] for i, h in enumerate(header)}
+    metrics = [h for h in header if h not in skip
+               and np.isfinite([_float(v) for v in cols[h]]).any()
+               and len({v for v in cols[h]}) > 1]
+    metrics = [m for m in _PREFERRED if m in metrics] + [m for m in metrics if m not in _PREFERRED]
+    metrics = metrics[:_MAX_PLOTS]
+    out = []
+    n = 0
+    for ax in axes or []:
+        xs_raw = cols[ax]
+        labels = list(dict.fromkeys(xs_raw))
+        if len(labels) < 2:
+            continue
+        numeric = all(np.isfinite(_float(v)) for v in labels)
+        xs = [_float(v) for v in labels] if numeric else labels
+        for m in metrics:
+            y = np.array([_float(v) for v in cols[m]])
+            series = {m: [float(np.nanmean(y[[i for i, v in enumerate(xs_raw) if v == lab]]))
+                          if np.isfinite(y[[i for i, v in enumerate(xs_raw) if v == lab]]).any()
+                          else math.nan for lab in labels]}
+            path = os.path.join(tmp, f"sweep_{n}.png")
+            n += 1
+            plots.plot_metric_sweep(xs, series, path, xlabel=ax, ylabel=m + " (mean over frames)")
+            with open(path, "rb") as fh:
+                out.append((f"{m} against sweep axis {ax}", fh.read()))
+    # within-shot sequences: metric against frame (or yaw) for the first shot with > 1 frame
+    frames = np.array([_float(v) for v in cols.get("frame", [])])
+    if frames.size and np.nanmax(frames) > 0:
+        sid = cols["shot_id"]
+        first = next(s for s in sid if sum(1 for t in sid if t == s) > 1)
+        sel = [i for i, s in enumerate(sid) if s == first]
+        xkey = "yaw_deg" if "yaw_deg" in cols and len({cols["yaw_deg"][i] for i in sel}) > 1 \
+            else "frame"
+        x = [_float(cols[xkey][i]) for i in sel]
+        for m in metrics[:6]:
+            if m == xkey:
+                continue
+            y = [_float(cols[m][i]) for i in sel]
+            path = os.path.join(tmp, f"seq_{n}.png")
+            n += 1
+            plots.plot_metric_sweep(x, {m: y}, path, xlabel=f"{xkey} (shot {first})", ylabel=m)
+            with open(path, "rb") as fh:
+                out.append((f"{m} against {xkey} within shot {first}", fh.read()))
+    return out
+
+
+_CSS = """
+body{font-family:sans-serif;margin:1.5em;max-width:1400px;color:#222}
+.caution{border:2px solid #b60;background:#fff4e0;padding:.6em 1em;margin:1em 0}
+table{border-collapse:collapse;font-size:12px}
+td,th{border:1px solid #ccc;padding:2px 6px;text-align:right}
+th{background:#eee;position:sticky;top:0}
+.sheet{display:flex;flex-wrap:wrap;gap:8px}
+.sheet figure{margin:0;width:min-content;font-size:11px;text-align:center}
+.sheet img{display:block;border:1px solid #999}
+.plots img{max-width:100%;border:1px solid #ddd;margin:4px 0}
+pre{background:#f6f6f6;padding:.6em;overflow:auto;max-height:40em;font-size:12px}
+.scroll{max-height:40em;overflow:auto}
+"""
+
+
+def build_report(study_dir, out=None, thumb_px=192, max_frames=400, max_rows=2000, force=True):
+    """Write the HTML report of a finished study; returns its path.
+
+    Parameters
+    ----------
+    study_dir : path of the study folder
+    out : output HTML path (default ``STUDY_DIR/report.html``); it should sit in the
+        study folder or a sub-folder so that links to full images stay relative.
+    thumb_px : largest thumbnail side, pixels
+    max_frames : at most this many thumbnails (the page says when frames are left off)
+    max_rows : at most this many rows of the metrics table
+    force : overwrite an existing report
+    """
+    study = read_study(study_dir)
+    d = study["dir"]
+    out = os.path.join(d, REPORT_NAME) if out is None else os.fspath(out)
+    if os.path.exists(out) and not force:
+        raise MagretinaError(f"{out} already exists; pass --force to overwrite")
+    if not (isinstance(thumb_px, int) and 16 <= thumb_px <= 1024):
+        raise MagretinaError(f"thumbnail size = {thumb_px!r}: allowed integers 16..1024 pixels")
+    out_dir = os.path.dirname(os.path.abspath(out))
+    sc = study["sidecar"]
+    name = (sc.get("resolved_config", {}).get("study", {}) or {}).get("name") or os.path.basename(
+        os.path.abspath(d))
+    esc = html.escape
+    parts = [f"<!DOCTYPE html><html lang='en'><head><meta charset='utf-8'>"
+             f"<title>magretina study report: {esc(str(name))}</title><style>{_CSS}</style>"
+             f"</head><body>",
+             f"<h1>Study report: {esc(str(name))}</h1>",
+             f"<p class='caution'><strong>Caution.</strong> {esc(CAUTION)}"
+             + (f"<br>{esc(str(sc['caution']))}" if sc.get("caution") else "") + "</p>"]
+    # parameters
+    n_shots = len(sc.get("shots", [])) or len(study["entries"])
+    parts.append("<h2>Parameters</h2><table>")
+    for k, v in (("finished shots", f"{len(study['entries'])} of {n_shots}"),
+                 ("study file", sc.get("study_file")), ("study file SHA-256", sc.get("study_file_sha256")),
+                 ("master seed", sc.get("master_seed")), ("git commit", sc.get("git_commit")),
+                 ("package versions", json.dumps(sc.get("package_versions", {}), sort_keys=True))):
+        if v is not None:
+            parts.append(f"<tr><th style='text-align:left'>{esc(k)}</th>"
+                         f"<td style='text-align:left'>{esc(str(v))}</td></tr>")
+    parts.append("</table>")
+    if sc.get("axes"):
+        parts.append("<h3>Sweep axes</h3><table><tr><th>name</th><th>key</th><th>values</th></tr>")
+        for a in sc["axes"]:
+            parts.append(f"<tr><td>{esc(str(a.get('name')))}</td><td>{esc(str(a.get('key')))}</td>"
+                         f"<td style='text-align:left'>{esc(', '.join(map(str, a.get('labels') or a.get('values', []))))}</td></tr>")
+        parts.append("</table>")
+    parts.append("<h3>Resolved configuration</h3><pre>"
+                 + esc(json.dumps(sc.get("resolved_config", sc), indent=2, sort_keys=True,
+                                  default=str)) + "</pre>")
+    # contact sheet
+    frames, total = _frames(study, max_frames)
+    parts.append(f"<h2>Frames</h2><p>{total} frame file(s)"
+                 + (f"; the first {len(frames)} are shown" if total > len(frames) else "")
+                 + ". Click a thumbnail for the full image.</p><div class='sheet'>")
+    for shot_id, view, frame, rel in frames:
+        data, (w, h) = _thumbnail(os.path.join(d, rel), thumb_px)
+        href = os.path.relpath(os.path.join(d, rel), out_dir).replace(os.sep, "/")
+        cap = f"{shot_id} {view} #{frame}"
+        parts.append(f"<figure><a href='{esc(href)}'><img src='{_data_uri_png(data)}' width='{w}' "
+                     f"height='{h}' alt='{esc(cap)}'></a><figcaption>{esc(cap)}</figcaption></figure>")
+    parts.append("</div>")
+    # plots
+    tmp = tempfile.mkdtemp(prefix="magretina-report-")
+    try:
+        plot_list = _sweep_plots(study, tmp)
+    finally:
+        shutil.rmtree(tmp, ignore_errors=True)
+    parts.append("<h2>Plots</h2><div class='plots'>")
+    if not plot_list:
+        parts.append("<p>No metric varies across the study; nothing to plot.</p>")
+    for cap, data in plot_list:
+        parts.append(f"<figure><img src='{_data_uri_png(data)}' alt='{esc(cap)}'>"
+                     f"<figcaption>{esc(cap)}</figcaption></figure>")
+    parts.append("</div>")
+    # metrics table
+    header, rows = study["metrics_header"], study["metrics_rows"]
+    parts.append("<h2>Metrics</h2>")
+    if not header:
+        parts.append("<p>No metrics.csv in the study folder.</p>")
+    else:
+        parts.append(f"<p>{len(rows)} row(s)" + (f"; the first {max_rows} are shown" if len(rows) > max_rows
+                                                else "") + " (from metrics.csv).</p>")
+        parts.append("<div class='scroll'><table><tr>"
+                     + "".join(f"<th>{esc(h)}</th>" for h in header) + "</tr>")
+        for r in rows[:max_rows]:
+            parts.append("<tr>" + "".join(f"<td>{esc(_fmt(v))}</td>" for v in r) + "</tr>")
+        parts.append("</table></div>")
+    parts.append("<p><small>Written by magretina from the files in this folder; no network "
+                 "resources are used.</small></p></body></html>\n")
+    return atomic_write_text(out, "".join(parts))
+
+
+def _fmt(v):
+    f = _float(v)
+    if not np.isfinite(f) or str(v).strip() == "" or not any(c.isdigit() for c in str(v)):
+        return str(v)
+    if float(f).is_integer() and "." not in str(v) and "e" not in str(v).lower():
+        return str(v)
+    return f"{f:.6g}"
+
+
+# ---------------------------------------------------------------------------
+# headless browser check
+# ---------------------------------------------------------------------------
+
+BROWSER_NAMES = ("chromium", "chromium-browser", "google-chrome", "chrome")
+BROWSER_FLAGS = ("--headless", "--no-sandbox", "--disable-gpu", "--disable-background-networking",
+                 "--disable-component-update", "--disable-sync", "--no-first-run",
+                 "--disable-dev-shm-usage")
+
+
+def find_browser(browser=None):
+    """Path of a Chromium executable (given, or the first on PATH); None if none."""
+    if browser:
+        p = shutil.which(browser) or (browser if os.path.isfile(browser) else None)
+        return p
+    for n in BROWSER_NAMES:
+        p = shutil.which(n)
+        if p:
+            return p
+    return None
+
+
+class _Pipe:
+    """Chromium DevTools protocol over --remote-debugging-pipe (NUL-separated JSON)."""
+
+    def __init__(self, proc, wfd, rfd):
+        self.proc, self.wfd, self.rfd = proc, wfd, rfd
+        self.buf = b""
+        self.next_id = 0
+        self.events = []
+
+    def send(self, method, params=None, session=None):
+        self.next_id += 1
+        msg = {"id": self.next_id, "method": method, "params": params or {}}
+        if session:
+            msg["sessionId"] = session
+        os.write(self.wfd, json.dumps(msg).encode() + b"\0")
+        return self.next_id
+
+    def _read_one(self, deadline):
+        import select
+
+        while b"\0" not in self.buf:
+            left = deadline - time.monotonic()
+            if left <= 0:
+                raise TimeoutError
+            r, _, _ = select.select([self.rfd], [], [], left)
+            if not r:
+                raise TimeoutError
+            chunk = os.read(self.rfd, 1 << 16)
+            if not chunk:
+                raise EOFError
+            self.buf += chunk
+        msg, _, self.buf = self.buf.partition(b"\0")
+        return json.loads(msg)
+
+    def call(self, method, params=None, session=None, timeout=20.0):
+        i = self.send(method, params, session)
+        deadline = time.monotonic() + timeout
+        while True:
+            m = self._read_one(deadline)
+            if m.get("id") == i:
+                if "error" in m:
+                    raise RuntimeError(f"{method}: {m['error']}")
+                return m.get("result", {})
+            self.events.append(m)
+
+    def wait_event(self, name, timeout=20.0):
+        deadline = time.monotonic() + timeout
+        for m in self.events:
+            if m.get("method") == name:
+                return m
+        while True:
+            m = self._read_one(deadline)
+            self.events.append(m)
+            if m.get("method") == name:
+                return m
+
+    def drain(self, seconds):
+        deadline = time.monotonic() + seconds
+        try:
+            while True:
+                self.events.append(self._read_one(deadline))
+        except TimeoutError:
+            pass
+
+
+_IMAGE_PROBE = ("JSON.stringify(Array.from(document.images).map(i => ({src: i.src.slice(0, 60), "
+                "complete: i.complete, w: i.naturalWidth, h: i.naturalHeight})))")
+
+
+def browser_check(html_path, browser=None, timeout_s=30.0) -> dict:
+    """Open a local HTML file in headless Chromium and report what happened.
+
+    Returns
+    -------
+    dict with ``console_errors`` (list of str: console errors, uncaught exceptions,
+    failed loads), ``images`` (list of dicts: src prefix, complete, natural w and h),
+    ``title`` and ``browser`` (executable and version).
+
+    Raises MagretinaError if no browser is found or it cannot start.
+    """
+    exe = find_browser(browser)
+    if exe is None:
+        raise MagretinaError(
+            f"no Chromium browser found ({'--browser ' + browser if browser else 'looked for ' + ', '.join(BROWSER_NAMES)} "
+            f"on PATH); install one, e.g. 'apt-get install -y chromium'")
+    page = os.path.abspath(os.fspath(html_path))
+    if not os.path.isfile(page):
+        raise MagretinaError(f"report {page}: no such file")
+    profile = tempfile.mkdtemp(prefix="magretina-chromium-")
+    r_child, w_parent = os.pipe()   # browser reads commands on fd 3
+    r_parent, w_child = os.pipe()   # browser writes replies on fd 4
+
+    # The protocol wants the pipe ends on fds 3 and 4.  os.pipe() fds are not inheritable
+    # (PEP 446), so with close_fds=False only the two dup2'ed descriptors reach the browser.
+    def _fds():
+        a, b = os.dup(r_child), os.dup(w_child)
+        os.dup2(a, 3)
+        os.dup2(b, 4)
+        os.set_inheritable(3, True)  # dup2 onto itself (a == 3) leaves the flag unset
+        os.set_inheritable(4, True)
+
+    cmd = [exe, *BROWSER_FLAGS, f"--user-data-dir={profile}", "--remote-debugging-pipe",
+           "about:blank"]
+    errlog_path = os.path.join(profile, "browser-stderr.log")
+    errlog = open(errlog_path, "wb")  # a file, not a pipe: a chatty browser must never block
+    try:
+        proc = subprocess.Popen(cmd, stdin=subprocess.DEVNULL, stdout=subprocess.DEVNULL,
+                                stderr=errlog, preexec_fn=_fds, close_fds=False)
+    except OSError as exc:
+        errlog.close()
+        shutil.rmtree(profile, ignore_errors=True)
+        for fd in (r_child, w_parent, r_parent, w_child):
+            os.close(fd)
+        raise MagretinaError(f"browser {exe} cannot start: {exc.strerror or exc}") from None
+    os.close(r_child)
+    os.close(w_child)
+    cdp = _Pipe(proc, w_parent, r_parent)
+    try:
+        try:
+            version = cdp.call("Browser.getVersion", timeout=timeout_s)
+            tid = cdp.call("Target.createTarget", {"url": "about:blank"})["targetId"]
+            sid = cdp.call("Target.attachToTarget", {"targetId": tid, "flatten": True})["sessionId"]
+            for m in ("Page.enable", "Runtime.enable", "Log.enable", "Network.enable"):
+                cdp.call(m, session=sid)
+            cdp.call("Page.navigate", {"url": "file://" + page}, session=sid)
+            cdp.wait_event("Page.loadEventFired", timeout=timeout_s)
+            cdp.drain(0.5)
+            res = cdp.call("Runtime.evaluate", {"expression": _IMAGE_PROBE, "returnByValue": True},
+                           session=sid)
+            images = json.loads(res["result"]["value"])
+            title = cdp.call("Runtime.evaluate", {"expression": "document.title",
+                                                  "returnByValue": True}, session=sid)
+            errors = []
+            for ev in cdp.events:
+                meth, p = ev.get("method"), ev.get("params", {})
+                if meth == "Runtime.consoleAPICalled" and p.get("type") in ("error", "assert"):
+                    errors.append("console: " + " ".join(str(a.get("value", a.get("description")))
+                                                         for a in p.get("args", [])))
+                elif meth == "Runtime.exceptionThrown":
+                    errors.append("exception: " + str(p.get("exceptionDetails", {}).get("text")))
+                elif meth == "Log.entryAdded" and p.get("entry", {}).get("level") == "error":
+                    errors.append("log: " + str(p["entry"].get("text")) + " "
+                                  + str(p["entry"].get("url", "")))
+                elif meth == "Network.loadingFailed":
+                    errors.append("load failed: " + str(p.get("errorText")))
+            try:
+                cdp.call("Browser.close", timeout=5)
+            except (TimeoutError, EOFError, RuntimeError):
+                pass
+        except (TimeoutError, EOFError, OSError, RuntimeError, ValueError, KeyError) as exc:
+            errlog.flush()
+            with open(errlog_path, "rb") as fh:
+                err = fh.read()[-800:]
+            raise MagretinaError(f"browser {exe} cannot start or load {page} "
+                                 f"({type(exc).__name__}: {exc}); its last output: "
+                                 f"{err.decode(errors='replace').strip() or '(none)'}") from None
+    finally:
+        for fd in (w_parent, r_parent):
+            try:
+                os.close(fd)
+            except OSError:
+                pass
+        try:
+            proc.wait(timeout=10)
+        except subprocess.TimeoutExpired:
+            proc.kill()
+            proc.wait()
+        errlog.close()
+        shutil.rmtree(profile, ignore_errors=True)
+    return {"console_errors": errors, "images": images, "title": title["result"].get("value"),
+            "browser": f"{exe} ({version.get('product', '?')})"}
+
+
+__all__ = ["build_report", "read_study", "browser_check", "find_browser", "REPORT_NAME", "CAUTION"]

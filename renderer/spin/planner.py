@@ -1,0 +1,342 @@
+"""Before a long spin run: which method, how much memory, roughly how long; then run it resumably.
+
+:func:`plan` estimates, from the dimensions alone (nothing large is allocated), the
+memory and time per field direction of every method that applies to a radical pair
+(dense eigenbasis, Liouville, direct separable sum, binned spectral convolution,
+spin-coherent-state Monte Carlo, Floquet under RF), picks one and says why.  The time
+model is operation counts times machine rates measured on the development machine
+(2 cores; see ``docs``/the bench scripts); it is meant to be right within a factor of
+a few, which is what a user needs to decide whether to start.
+
+:func:`run_directions` evaluates a yield function direction by direction, caching
+every result in its own small file (written atomically), so an interrupted run
+resumes where it stopped; :func:`compute_table` fits the results into the spine's
+:class:`renderer.response.spin_table.SpinTable`.  This module does no physics.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import math
+import os
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+
+from ..errors import MagretinaError
+from .system import RadicalPair, memory_limit_bytes
+
+# Machine rates measured here (2 cores, numpy/OpenBLAS, numba); see bench/spin_large.py.
+#: seconds per n³ of a complex Hermitian eigen-decomposition
+EIGH_S_PER_N3 = 5e-10
+#: terms per second of the direct separable double sum (numba, 2 cores)
+DIRECT_TERMS_PER_S = 9e8
+#: seconds per spectral line built and binned
+LINE_S = 2.5e-8
+#: seconds per complex multiply-add in sparse/dense propagation
+PROP_S_PER_OP = 2e-9
+
+
+@dataclass(frozen=True)
+class MethodEstimate:
+    """Cost of one method for one field direction."""
+
+    method: str
+    seconds_per_direction: float
+    memory_bytes: int
+    exact: str          # "exact", "bounded error <tol>", "statistical", "approximation"
+    applicable: bool
+    why_not: str = ""
+
+
+@dataclass(frozen=True)
+class Plan:
+    """What will run: the chosen method, its cost, and the alternatives."""
+
+    method: str
+    n_directions: int
+    seconds_per_direction: float
+    memory_bytes: int
+    reason: str
+    estimates: tuple = field(default_factory=tuple)
+
+    @property
+    def total_seconds(self) -> float:
+        return self.seconds_per_direction * self.n_directions
+
+    def summary(self) -> str:
+        lines = [f"method: {self.method} ({self.reason})",
+                 f"estimated: {_fmt_s(self.seconds_per_direction)} per direction, "
+                 f"{_fmt_s(self.total_seconds)} for {self.n_directions} directions, "
+                 f"peak memory ~{_fmt_b(self.memory_bytes)}",
+                 "alternatives:"]
+        for e in self.estimates:
+            tag = "" if e.applicable else f"  [not applicable: {e.why_not}]"
+            lines.append(f"  {e.method:<12} {_fmt_s(e.seconds_per_direction):>12}/direction "
+                         f"{_fmt_b(e.memory_bytes):>10}  {e.exact}{tag}")
+        return "\n".join(lines)
+
+
+def _fmt_s(s):
+    if not math.isfinite(s):
+        return "inf"
+    if s < 1:
+        return f"{s * 1e3:.3g} ms"
+    if s < 120:
+        return f"{s:.3g} s"
+    if s < 7200:
+        return f"{s / 60:.3g} min"
+    if s < 2 * 86400:
+        return f"{s / 3600:.3g} h"
+    return f"{s / 86400:.3g} days"
+
+
+def _fmt_b(b):
+    for unit, f in (("TiB", 2**40), ("GiB", 2**30), ("MiB", 2**20), ("KiB", 2**10)):
+        if b >= f:
+            return f"{b / f:.3g} {unit}"
+    return f"{int(b)} B"
+
+
+def _block_dims(radical):
+    from .large import radical_blocks
+
+    return [sub.dim for _, sub in radical_blocks(radical)]
+
+
+def spectral_span_estimate(pair: RadicalPair, field_T: float) -> float:
+    """Upper estimate (rad/s) of a radical's line span: Zeeman + Σ |A| I, worst radical."""
+    from .hamiltonian import GAMMA_E, RAD_S_PER_MT
+
+    spans = []
+    for rad in (pair.a, pair.b):
+        w = GAMMA_E * field_T
+        for n in rad.nuclei:
+            w += RAD_S_PER_MT * float(np.linalg.norm(n.hyperfine_mT, 2)) * n.spin
+        spans.append(w)
+    return max(spans)
+
+
+def estimate(pair: RadicalPair, field_T=50e-6, *, tol=1e-6, n_samples=256, rf_harmonics=4):
+    """Per-direction cost of every method for this pair (nothing is allocated).
+
+    Returns
+    -------
+    list of MethodEstimate
+    """
+    from .large import spacing_for_tolerance
+
+    n = pair.dim
+    da, db = pair.a.dim, pair.b.dim
+    sep_ok = pair.equal_rates and not pair.coupled
+    why_sep = "" if sep_ok else "needs equal rates and no exchange/dipolar coupling"
+    out = []
+    out.append(MethodEstimate("eigenbasis", EIGH_S_PER_N3 * n**3 + 3 * EIGH_S_PER_N3 * n**3,
+                              16 * 6 * n * n, "exact", pair.equal_rates,
+                              "" if pair.equal_rates else "needs equal rates"))
+    out.append(MethodEstimate("liouville", 12 * EIGH_S_PER_N3 * n**3, 16 * 8 * n * n, "exact", True))
+    sep_terms = 0.5 * da * da * db * db
+    out.append(MethodEstimate("separable", sep_terms / DIRECT_TERMS_PER_S
+                              + EIGH_S_PER_N3 * (da**3 + db**3),
+                              16 * 8 * (da * da + db * db), "exact", sep_ok, why_sep))
+    bl_a, bl_b = _block_dims(pair.a), _block_dims(pair.b)
+    lines = sum(d * d for d in bl_a) + sum(d * d for d in bl_b)
+    h = spacing_for_tolerance(tol, pair.k_s)
+    grid = 4 * spectral_span_estimate(pair, field_T) / h + 8
+    t_spec = (2 * EIGH_S_PER_N3 * sum(d**3 for d in bl_a + bl_b) + LINE_S * lines
+              + 6 * 5e-9 * grid * math.log2(max(grid, 2)) * 3)
+    mem_spec = 16 * 4 * lines + 16 * 24 * int(grid) + 16 * 4 * max(bl_a + bl_b) ** 2
+    out.append(MethodEstimate("spectral", t_spec, int(mem_spec), f"bounded error <= {tol:g}",
+                              sep_ok, why_sep))
+    # Monte Carlo: steps = t_max · ω_span / 0.25, each a sparse mat-vec per sample
+    kmin = min(pair.k_s, pair.k_t) if pair.k_t > 0 else pair.k_s
+    steps = math.log(1e9) / kmin * 2 * spectral_span_estimate(pair, field_T) / 0.25
+    nnz = n * (1 + 4 * (len(pair.a.nuclei) + len(pair.b.nuclei)))
+    per_step = (n * n if n <= 2048 else 6 * nnz)
+    out.append(MethodEstimate("montecarlo", n_samples * steps * per_step * PROP_S_PER_OP,
+                              int(16 * (nnz * 2 + 8 * n * min(n_samples, 64))),
+                              f"statistical ({n_samples} samples)", True))
+    nf = n * (2 * rf_harmonics + 1)
+    out.append(MethodEstimate("floquet", 2 * EIGH_S_PER_N3 * nf**3 + 4 * EIGH_S_PER_N3 * n * nf**2,
+                              16 * 5 * nf * nf, "exact (RF on, per RF azimuth)", True))
+    return out
+
+
+def plan(pair: RadicalPair, n_directions=1, *, field_T=50e-6, method="auto", tol=1e-6,
+         rf=False, n_samples=256, memory_limit=None) -> Plan:
+    """Choose a method for ``n_directions`` field directions and estimate its cost.
+
+    Parameters
+    ----------
+    pair : RadicalPair
+    n_directions : int
+    field_T : float
+        Field magnitude (T), used for the spectral span.
+    method : str
+        'auto' or one of the estimate names.
+    rf : bool
+        An RF field is on (only 'floquet' applies; 'propagate' for noise).
+    memory_limit : int, optional
+        Bytes (default MAGRETINA_SPIN_MEMORY_GIB or 4 GiB).
+
+    Returns
+    -------
+    Plan
+    """
+    lim = memory_limit_bytes() if memory_limit is None else int(memory_limit)
+    ests = estimate(pair, field_T, tol=tol, n_samples=n_samples)
+    by = {e.method: e for e in ests}
+    if rf:
+        cands = ["floquet"]
+    elif method == "auto":
+        cands = ["separable", "spectral", "eigenbasis", "liouville", "montecarlo"]
+    else:
+        if method not in by:
+            raise MagretinaError(f"method = {method!r} is unknown; allowed 'auto', "
+                                 + ", ".join(repr(k) for k in by))
+        cands = [method]
+    ok = [by[c] for c in cands if by[c].applicable and by[c].memory_bytes <= lim]
+    if not ok:
+        e = by[cands[0]]
+        raise MagretinaError(
+            f"no method fits: '{e.method}' would need about {_fmt_b(e.memory_bytes)} "
+            f"(limit {_fmt_b(lim)}){'; ' + e.why_not if e.why_not else ''}. Hilbert dimension "
+            f"{pair.dim}; combine equivalent nuclei, drop weak couplings, or use 'montecarlo'")
+    if method == "auto" and not rf:
+        # prefer exact methods; the spectral one only when it is clearly cheaper
+        exact = [e for e in ok if e.method in ("separable", "eigenbasis", "liouville")]
+        best_exact = min(exact, key=lambda e: e.seconds_per_direction) if exact else None
+        spec = by["spectral"] if by["spectral"] in ok else None
+        if spec and (best_exact is None or spec.seconds_per_direction * 5 < best_exact.seconds_per_direction):
+            choice, why = spec, f"separable pair; binned spectral sum with error <= {tol:g} is " \
+                                f"cheaper than the exact sums"
+        elif best_exact is not None:
+            choice, why = best_exact, "cheapest exact method that fits in memory"
+        else:
+            choice, why = by["montecarlo"], "only the statistically exact Monte Carlo fits in memory"
+    else:
+        choice, why = ok[0], "requested" if method != "auto" else "RF on: Floquet (exact)"
+    return Plan(choice.method, int(n_directions), choice.seconds_per_direction,
+                choice.memory_bytes, why, tuple(ests))
+
+
+# --------------------------------------------------------------------------------------
+# resumable per-direction runs
+# --------------------------------------------------------------------------------------
+
+def run_key(params: dict) -> str:
+    """SHA-256 (24 hex digits) of a JSON-serialisable parameter dict."""
+    blob = json.dumps(params, sort_keys=True, default=lambda o: np.asarray(o).tolist())
+    return hashlib.sha256(blob.encode()).hexdigest()[:24]
+
+
+def default_run_dir() -> Path:
+    """Where per-direction results are kept: $MAGRETINA_CACHE/spin-runs or ~/.cache/magretina/spin-runs."""
+    root = os.environ.get("MAGRETINA_CACHE") or os.path.join(os.path.expanduser("~"), ".cache",
+                                                             "magretina")
+    return Path(root) / "spin-runs"
+
+
+def run_directions(fn, fields_T, key, *, run_dir=None, progress=None):
+    """Evaluate ``fn(field_T (3,)) -> float`` per direction, caching each result.
+
+    Parameters
+    ----------
+    fn : callable
+        Yield for one field vector (T).
+    fields_T : ndarray (N, 3)
+    key : str
+        Run identity (see :func:`run_key`); results live in ``run_dir/key/``.
+    run_dir : path, optional
+        Default :func:`default_run_dir`.
+    progress : callable, optional
+        Called with the number of directions finished (cached ones first).
+
+    Returns
+    -------
+    ndarray (N,)
+        Interrupting (Ctrl-C) loses at most the direction in flight; calling again
+        with the same key resumes.
+    """
+    from ..io import atomic_write_text
+
+    b = np.asarray(fields_T, dtype=np.float64).reshape(-1, 3)
+    folder = Path(run_dir or default_run_dir()) / key
+    folder.mkdir(parents=True, exist_ok=True)
+    out = np.full(len(b), np.nan)
+    todo = []
+    for i, bi in enumerate(b):
+        f = folder / f"{i:06d}.json"
+        if f.exists():
+            try:
+                rec = json.loads(f.read_text())
+                if np.allclose(rec["field_T"], bi, rtol=0, atol=1e-18):
+                    out[i] = float(rec["value"])
+                    continue
+            except (ValueError, KeyError, OSError):
+                pass
+        todo.append(i)
+    if progress is not None and len(b) - len(todo):
+        progress(len(b) - len(todo))
+    for i in todo:
+        v = float(fn(b[i]))
+        atomic_write_text(folder / f"{i:06d}.json",
+                          json.dumps({"field_T": b[i].tolist(), "value": v}))
+        out[i] = v
+        if progress is not None:
+            progress(1)
+    return out
+
+
+def compute_table(fn, field_T, params, *, lmax=16, order=None, run_dir=None, progress=None,
+                  meta=None, inversion_symmetric=True):
+    """A full-sphere SpinTable from a per-direction yield function, resumably.
+
+    Parameters
+    ----------
+    fn : callable
+        Φ for one field vector (T, molecular frame).
+    field_T : float
+        |B| (T).
+    params : dict
+        Everything ``fn`` depends on (the run key is its hash).
+    lmax, order : int
+        Harmonic degree and Lebedev order (as in ``compute_spin_table``).
+    inversion_symmetric : bool
+        Solve only one node of each antipodal pair (Φ(B) = Φ(−B)).
+
+    Returns
+    -------
+    renderer.response.spin_table.SpinTable
+    """
+    from ..response.harmonic import (degrees, fit_quadrature, lebedev_grid, lebedev_order_for,
+                                     real_sph_harm)
+    from ..response.spin_table import SpinTable, antipodal_pairs
+
+    lmax = int(lmax)
+    if lmax < 0 or lmax % 2:
+        raise MagretinaError(f"l_max = {lmax} must be an even degree >= 0")
+    order = lebedev_order_for(2 * lmax + 5) if order is None else int(order)
+    nodes, weights = lebedev_grid(order)
+    b = float(field_T)
+    if inversion_symmetric:
+        keep, partner = antipodal_pairs(nodes)
+    else:
+        keep, partner = np.arange(len(nodes)), np.arange(len(nodes))
+    full = {**params, "field_T": b, "lmax": lmax, "lebedev_order": order,
+            "inversion_symmetric": bool(inversion_symmetric)}
+    key = run_key(full)
+    vals = run_directions(fn, b * nodes[keep], key, run_dir=run_dir, progress=progress)
+    values = np.empty(len(nodes))
+    values[keep] = vals
+    values[partner] = vals
+    coeffs = fit_quadrature(lmax, nodes, weights, values)
+    coeffs[degrees(lmax) % 2 == 1] = 0.0
+    resid = real_sph_harm(lmax, nodes) @ coeffs - values
+    m = {**full, "run_key": key, "residual_rms": float(np.sqrt(np.mean(resid**2))),
+         "residual_max": float(np.max(np.abs(resid))), "n_directions": int(len(nodes)),
+         "n_solved": int(len(keep)),
+         "note": "model prediction of a radical-pair hypothesis, not a measurement", **(meta or {})}
+    return SpinTable(coeffs, nodes=nodes, values=values, meta=m)

@@ -1,0 +1,377 @@
+"""Sweep axes to shots: dotted key paths, lists/ranges/linspaces, grid or zip, seeds.
+
+Each ``[[sweep.axis]]`` names a key path into the study file (``site.lat_deg``,
+``views.world.width``, ``response.coeffs``, ``timeline.steps[0].angle_deg``, or a
+whole table such as ``site``) and its values: ``values = [...]``, ``range =
+[start, stop, step]`` (stop excluded, as in Python's ``range``) or ``linspace =
+[start, stop, num]`` (both ends included).  Axes in the same ``group`` are zipped
+(equal lengths, one dimension named after the group's first axis); groups combine
+as a full grid.  ``combine = "zip"`` puts every axis in one group.  Every value is
+checked by substituting it into the study and validating, so a bad value is
+reported with its axis, position and the allowed range, before anything renders.
+Per-shot seeds are spawned from ``study.seed`` with ``numpy.random.SeedSequence``.
+:func:`plan` builds every shot's frames and shared resources up front (the last
+validation step).  Nothing here renders.
+"""
+
+from __future__ import annotations
+
+import copy
+import itertools
+import json
+import math
+import re
+from dataclasses import dataclass, replace
+
+import numpy as np
+
+from ..errors import ConfigError, MagretinaError
+from . import sequences
+from .config import Study, canonical_json, validate
+
+_SEG = re.compile(r"^([A-Za-z_][A-Za-z0-9_\-]*)((?:\[\d+\])*)$")
+MAX_LISTED = 60
+
+
+def parse_key_path(path: str) -> list:
+    """``"a.b[2].c"`` -> ``["a", "b", 2, "c"]``; raises MagretinaError if malformed."""
+    out = []
+    if not isinstance(path, str) or not path:
+        raise MagretinaError(f"key path {path!r}: must be a non-empty string like 'site.lat_deg'")
+    for seg in path.split("."):
+        m = _SEG.match(seg)
+        if not m:
+            raise MagretinaError(f"key path {path!r}: segment {seg!r} is not a key name "
+                                 f"(letters, digits, '_', '-', optional [index])")
+        out.append(m.group(1))
+        out.extend(int(i) for i in re.findall(r"\[(\d+)\]", m.group(2)))
+    return out
+
+
+def set_key_path(raw: dict, path, value) -> dict:
+    """A deep copy of ``raw`` with ``value`` at ``path`` (missing tables are created)."""
+    segs = parse_key_path(path) if isinstance(path, str) else path
+    out = copy.deepcopy(raw)
+    node = out
+    for i, s in enumerate(segs[:-1]):
+        nxt = segs[i + 1]
+        if isinstance(s, int):
+            if not isinstance(node, list) or s >= len(node):
+                raise MagretinaError(f"key path {path!r}: index [{s}] does not exist")
+            node = node[s]
+            continue
+        if not isinstance(node, dict):
+            raise MagretinaError(f"key path {path!r}: {s!r} is inside a value that is not a table")
+        if s not in node:
+            if isinstance(nxt, int):
+                raise MagretinaError(f"key path {path!r}: {s!r} is not set, so [{nxt}] does not "
+                                     f"exist")
+            node[s] = {}
+        node = node[s]
+    last = segs[-1]
+    if isinstance(last, int):
+        if not isinstance(node, list) or last >= len(node):
+            raise MagretinaError(f"key path {path!r}: index [{last}] does not exist")
+    elif not isinstance(node, dict):
+        raise MagretinaError(f"key path {path!r}: the parent of {last!r} is not a table")
+    node[last] = copy.deepcopy(value)
+    return out
+
+
+def snake(name: str) -> str:
+    s = re.sub(r"[^0-9A-Za-z]+", "_", name).strip("_").lower()
+    if not s or not s[0].isalpha():
+        s = "p_" + s
+    return s
+
+
+@dataclass(frozen=True)
+class Axis:
+    """One swept parameter: ``name`` (column/dimension), ``key`` path, values, labels."""
+
+    name: str
+    key: str
+    values: tuple
+    labels: tuple
+    group: str
+
+    @property
+    def scalar(self) -> bool:
+        return all(isinstance(v, (int, float, str, bool)) for v in self.values)
+
+
+def axis_values(path, a, problems):
+    given = [k for k in ("values", "range", "linspace") if a.get(k) is not None]
+    if len(given) != 1:
+        problems.append(f"{path}: give exactly one of values, range, linspace (got "
+                        f"{', '.join(given) or 'none'})")
+        return None
+    kind = given[0]
+    v = a[kind]
+    if kind == "values":
+        if not v:
+            problems.append(f"{path}.values: must not be empty")
+            return None
+        return list(v)
+    nums = [x for x in v if isinstance(x, (int, float)) and not isinstance(x, bool)]
+    if len(v) != 3 or len(nums) != 3 or not all(math.isfinite(x) for x in nums):
+        problems.append(f"{path}.{kind} = {v!r}: must be three numbers [start, stop, "
+                        f"{'step' if kind == 'range' else 'num'}]")
+        return None
+    start, stop, third = v
+    if kind == "range":
+        if third == 0:
+            problems.append(f"{path}.range = {v!r}: step must not be 0")
+            return None
+        n = sequences.sweep_count(start, stop, third)
+        if n == 0 or n > 100000:
+            problems.append(f"{path}.range = {v!r}: gives {n} values; allowed 1..100000")
+            return None
+        vals = [start + k * third for k in range(n)]
+        if all(isinstance(x, int) for x in v):
+            return [int(x) for x in vals]
+        return [float(x) for x in vals]
+    if not isinstance(third, int) or not 1 <= third <= 100000:
+        problems.append(f"{path}.linspace = {v!r}: num must be an integer in [1, 100000]")
+        return None
+    return [float(x) for x in np.linspace(start, stop, third)]
+
+
+def label_of(v) -> str:
+    if isinstance(v, float):
+        return f"{v:g}"
+    if isinstance(v, (int, str, bool)):
+        return str(v)
+    return json.dumps(v, sort_keys=True, separators=(",", ":"), default=str)
+
+
+def build_axes(study_raw, base_dir, sweep, problems, known=()) -> list[Axis]:
+    """The sweep axes; problems of substituted values not already in ``known``."""
+    axes = []
+    names = set()
+    combine = sweep.get("combine", "grid")
+    for i, a in enumerate(sweep.get("axis", [])):
+        path = f"sweep.axis[{i}]"
+        key = a.get("key")
+        try:
+            segs = parse_key_path(key)
+        except MagretinaError as exc:
+            problems.append(f"{path}.key: {exc}")
+            continue
+        if segs[0] == "sweep":
+            problems.append(f"{path}.key = {key!r}: the sweep table itself cannot be swept")
+            continue
+        vals = axis_values(path, a, problems)
+        if vals is None:
+            continue
+        name = a.get("name") or snake(key)
+        if snake(name) != name:
+            problems.append(f"{path}.name = {name!r}: must be snake_case starting with a letter "
+                            f"(e.g. {snake(name)!r})")
+        if name in names:
+            problems.append(f"{path}.name = {name!r}: used by another axis")
+        names.add(name)
+        labels = a.get("labels")
+        if labels is not None:
+            if len(labels) != len(vals) or not all(isinstance(x, str) for x in labels):
+                problems.append(f"{path}.labels: must be {len(vals)} strings, one per value")
+                labels = None
+        labels = tuple(labels) if labels else tuple(label_of(v) for v in vals)
+        group = a.get("group") or ("zip" if combine == "zip" else name)
+        # Check every value in place of the base value.
+        for j, v in enumerate(vals):
+            try:
+                raw2 = set_key_path(study_raw, key, v)
+            except MagretinaError as exc:
+                problems.append(f"{path}.key: {exc}")
+                break
+            sub = []
+            validate(raw2, base_dir, sub)
+            for p in sub:
+                if p not in known:
+                    problems.append(f"{path} (key {key}) value {j} = {labels[j]}: {p}")
+        axes.append(Axis(name, key, tuple(vals), labels, group))
+    # zipped groups must agree in length
+    groups = {}
+    for ax in axes:
+        groups.setdefault(ax.group, []).append(ax)
+    for g, members in groups.items():
+        lens = {len(m.values) for m in members}
+        if len(lens) > 1:
+            problems.append(f"sweep: zipped axes {', '.join(m.name for m in members)} (group "
+                            f"{g!r}) have different lengths "
+                            f"{', '.join(str(len(m.values)) for m in members)}")
+    return axes
+
+
+@dataclass(frozen=True)
+class Shot:
+    """One parameter combination: resolved config, coordinates on the axes, seed, frames."""
+
+    index: int
+    shot_id: str
+    coords: dict
+    params: dict
+    labels: dict
+    config: dict
+    seed: int
+    res_key: str
+    frames: object
+
+
+@dataclass(frozen=True)
+class Plan:
+    """The expanded study: axes, dimensions, shots and their shared resource configs."""
+
+    study: Study
+    axes: tuple
+    dims: tuple  # ((dim name, size, (axis names...)), ...)
+    shots: tuple
+    resource_configs: dict  # res_key -> resolved shot config (to build resources)
+    field_info: dict
+
+    @property
+    def n_frames(self) -> int:
+        return sum(len(s.frames) for s in self.shots)
+
+    @property
+    def max_frames(self) -> int:
+        return max(len(s.frames) for s in self.shots)
+
+
+def shot_seeds(master: int, n: int) -> list[int]:
+    """64-bit seeds of ``n`` shots spawned from one master seed (SeedSequence)."""
+    children = np.random.SeedSequence(int(master)).spawn(n)
+    return [int(c.generate_state(1, np.uint64)[0]) for c in children]
+
+
+def plan(study: Study) -> Plan:
+    """Expand the sweep into shots; build every frame series and check every shot.
+
+    Raises ConfigError with every problem found (deduplicated).
+    """
+    from .build import field_function, resources_key
+
+    problems = []
+    raw = study.raw
+    axes = build_axes(raw, study.base_dir, study.resolved["sweep"], problems)
+    if problems:
+        raise ConfigError(_dedupe(problems), source=study.path)
+    groups = []
+    for ax in axes:
+        for g in groups:
+            if g[0].group == ax.group:
+                g.append(ax)
+                break
+        else:
+            groups.append([ax])
+    dims = tuple((g[0].name, len(g[0].values), tuple(a.name for a in g)) for g in groups)
+    combos = list(itertools.product(*[range(len(g[0].values)) for g in groups])) or [()]
+    seeds = shot_seeds(study.resolved["study"]["seed"], len(combos))
+    width = max(3, len(str(len(combos) - 1)))
+    pending = []
+    for idx, combo in enumerate(combos):
+        r = raw
+        coords, params, labels = {}, {}, {}
+        for g, k in zip(groups, combo):
+            for ax in g:
+                r = set_key_path(r, ax.key, ax.values[k])
+                coords[ax.name] = k
+                params[ax.name] = ax.values[k]
+                labels[ax.name] = ax.labels[k]
+            coords[g[0].name] = k
+        sub = []
+        cfg = validate(r, study.base_dir, sub) if combo else study.resolved
+        where = f"shot {idx} ({', '.join(f'{k}={v}' for k, v in labels.items())})" if labels \
+            else "study"
+        problems.extend(f"{where}: {p}" for p in sub)
+        if sub:
+            continue
+        ctx = sequences.SequenceContext(pose=cfg["pose"], site=cfg["site"],
+                                        base_dir=study.base_dir)
+        try:
+            fs = sequences.SEQUENCES[cfg["sequence"]["kind"]](cfg["sequence"], ctx)
+        except MagretinaError as exc:
+            problems.append(f"{where}: {exc}")
+            continue
+        pending.append((idx, coords, params, labels, cfg, fs))
+    if problems:
+        raise ConfigError(_dedupe(problems), source=study.path)
+
+    # One field evaluation per distinct field configuration, over all its frames.
+    by_field = {}
+    for item in pending:
+        fkey = canonical_json(item[4]["field"])
+        by_field.setdefault(fkey, []).append(item)
+    ambient = {}
+    field_info = {}
+    for fkey, items in by_field.items():
+        fn, info = field_function(items[0][4])
+        field_info[info["model"]] = info
+        lat = np.concatenate([it[5].lat_deg for it in items])
+        lon = np.concatenate([it[5].lon_deg for it in items])
+        alt = np.concatenate([it[5].alt_km for it in items])
+        try:
+            b = np.asarray(fn(lat, lon, alt), float).reshape(-1, 3)
+        except MagretinaError as exc:
+            problems.append(f"field: {exc}")
+            continue
+        k = 0
+        for it in items:
+            n = len(it[5])
+            ambient[it[0]] = b[k:k + n]
+            k += n
+    shots = []
+    res_cfgs = {}
+    for idx, coords, params, labels, cfg, fs in pending:
+        if idx not in ambient:
+            continue
+        fs = sequences.apply_field(fs, ambient[idx], cfg["timeline"])
+        if not np.all(np.isfinite(fs.b_ned_T)):
+            problems.append(f"shot {idx}: the field model gave non-finite values")
+            continue
+        rk = resources_key(cfg)
+        res_cfgs.setdefault(rk, cfg)
+        shots.append(Shot(idx, f"shot{idx:0{width}d}", coords, params, labels, cfg, seeds[idx],
+                          rk, fs))
+    if problems:
+        raise ConfigError(_dedupe(problems), source=study.path)
+    p = Plan(study, tuple(axes), dims, tuple(shots), res_cfgs, field_info)
+    _check_outputs(p, problems)
+    if problems:
+        raise ConfigError(_dedupe(problems), source=study.path)
+    return p
+
+
+def _check_outputs(p: Plan, problems):
+    from .build import build_view
+
+    for s in p.shots:
+        out = s.config["output"]
+        for name, vcfg in s.config["views"].items():
+            try:
+                v = build_view(vcfg)
+            except MagretinaError as exc:
+                problems.append(f"views.{name}: {exc}")
+                continue
+            except TypeError as exc:
+                problems.append(f"views.{name}: {exc}")
+                continue
+            H, W = v.shape
+            if out["video"] != "none" and (H % 2 or W % 2):
+                problems.append(f"views.{name}: {W} x {H} pixels; output.video needs even width "
+                                f"and height (frames are never resized)")
+
+
+def _dedupe(problems):
+    seen = []
+    for p in problems:
+        if p not in seen:
+            seen.append(p)
+    if len(seen) > MAX_LISTED:
+        seen = seen[:MAX_LISTED] + [f"... and {len(seen) - MAX_LISTED} more"]
+    return seen
+
+
+def with_frames(shot: Shot, frames) -> Shot:
+    return replace(shot, frames=frames)

@@ -1,0 +1,266 @@
+"""Study exports: animated previews, videos, ``conditions.csv``, ``metrics.csv``, NetCDF.
+
+Videos go through imageio's FFMPEG plugin with the ffmpeg binary of the
+imageio-ffmpeg wheel.  ``macro_block_size=1`` stops imageio from silently resizing
+frames to multiples of 16; H.264 in yuv420p needs even sizes, which the study
+checks up front.  The lossy MP4 is yuv420p (chroma subsampled, for viewing); the
+lossless options are libx264rgb at ``-crf 0`` (RGB, no chroma subsampling) and
+FFV1 in Matroska, both pixel-exact for 8-bit sRGB frames.  Previews (GIF or APNG
+via Pillow) are downscaled by an integer factor and are not for measurement.
+Tables follow what experiment software expects: one row per stimulus file,
+snake_case headers starting with a letter, paths relative to the CSV.  NetCDF is
+written by xarray with the ``h5netcdf`` engine (needs ``h5py``; the
+``magretina[scale]`` extra); the resolved configuration is a JSON string
+attribute since nested mappings are not valid NetCDF attributes.  This module
+does not render.
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+import json
+import os
+import tempfile
+
+import numpy as np
+
+from ..errors import MagretinaError
+from ..io import atomic_write_bytes
+
+
+def _tmp_beside(path, suffix):
+    folder = os.path.dirname(os.path.abspath(path))
+    os.makedirs(folder, exist_ok=True)
+    fd, tmp = tempfile.mkstemp(prefix="." + os.path.basename(path) + ".", suffix=".tmp" + suffix,
+                               dir=folder)
+    os.close(fd)
+    return tmp
+
+
+def write_video(path, frames_u8, fps, video="mp4", codec="libx264rgb", crf=18) -> str:
+    """Encode an iterable of (H, W, 3) uint8 sRGB frames to a video file, atomically.
+
+    Parameters
+    ----------
+    video : "mp4" (H.264 yuv420p, lossy, ``crf``) or "lossless" (``codec``
+        libx264rgb at crf 0 in MP4, or ffv1 in Matroska)
+    fps : float, playback frame rate
+
+    Frames are never resized: a frame of odd width or height raises for yuv420p.
+    """
+    import imageio.v2 as iio2
+
+    if video == "mp4":
+        kw = dict(codec="libx264", pixelformat="yuv420p", output_params=["-crf", str(int(crf))])
+        fmt = "mp4"
+    elif codec == "libx264rgb":
+        kw = dict(codec="libx264rgb", pixelformat="rgb24",
+                  output_params=["-crf", "0", "-preset", "medium"])
+        fmt = "mp4"
+    elif codec == "ffv1":
+        kw = dict(codec="ffv1", pixelformat="bgr0", output_params=["-level", "3"])
+        fmt = "matroska"
+    else:
+        raise MagretinaError(f"video codec {codec!r}: allowed libx264rgb, ffv1")
+    tmp = _tmp_beside(path, ".mkv" if fmt == "matroska" else ".mp4")
+    try:
+        w = iio2.get_writer(tmp, format="FFMPEG", mode="I", fps=float(fps), quality=None,
+                            macro_block_size=1, ffmpeg_log_level="error",
+                            input_params=None, ffmpeg_params=["-threads", "1", "-f", fmt], **kw)
+        shape = None
+        try:
+            for fr in frames_u8:
+                fr = np.ascontiguousarray(fr, dtype=np.uint8)
+                if shape is None:
+                    shape = fr.shape
+                    if video == "mp4" and (shape[0] % 2 or shape[1] % 2):
+                        raise MagretinaError(f"video {path}: frame {shape[1]} x {shape[0]} must "
+                                             f"have even width and height for H.264 yuv420p")
+                w.append_data(fr)
+        finally:
+            w.close()
+        os.replace(tmp, path)
+    except BaseException:
+        if os.path.exists(tmp):
+            os.remove(tmp)
+        raise
+    return path
+
+
+def read_video(path) -> np.ndarray:
+    """Decode a video into (N, H, W, 3) uint8 RGB (for checks)."""
+    import imageio.v2 as iio2
+
+    r = iio2.get_reader(path, format="FFMPEG", pixelformat="rgb24")
+    try:
+        return np.stack([np.asarray(f) for f in r])
+    finally:
+        r.close()
+
+
+def preview_bytes(frames_u8, fps, kind="gif", max_width=256) -> bytes:
+    """Animated GIF or APNG bytes of the frames, downscaled by an integer factor."""
+    from PIL import Image
+
+    ims = []
+    for fr in frames_u8:
+        fr = np.asarray(fr, np.uint8)
+        k = max(1, -(-fr.shape[1] // int(max_width)))
+        ims.append(Image.fromarray(np.ascontiguousarray(fr[::k, ::k])))
+    if not ims:
+        raise MagretinaError("preview: no frames")
+    buf = io.BytesIO()
+    duration = max(1, int(round(1000.0 / float(fps))))
+    if kind == "gif":
+        ims[0].save(buf, format="GIF", save_all=True, append_images=ims[1:], duration=duration,
+                    loop=0, optimize=False)
+    else:
+        ims[0].save(buf, format="PNG", save_all=True, append_images=ims[1:], duration=duration,
+                    loop=0, default_image=False)
+    return buf.getvalue()
+
+
+def csv_header(names) -> list[str]:
+    """snake_case, starting with a letter, unique (common practice of experiment software)."""
+    from .expand import snake
+
+    out = []
+    for n in names:
+        s = snake(n)
+        base, k = s, 2
+        while s in out:
+            s = f"{base}_{k}"
+            k += 1
+        out.append(s)
+    return out
+
+
+def csv_bytes(columns, rows) -> bytes:
+    buf = io.StringIO()
+    w = csv.writer(buf, lineterminator="\n")
+    w.writerow(csv_header(columns))
+    for r in rows:
+        w.writerow([_cell(r.get(c)) for c in columns])
+    return buf.getvalue().encode("utf-8")
+
+
+def _cell(v):
+    if v is None:
+        return ""
+    if isinstance(v, float):
+        return repr(v) if np.isfinite(v) else ""
+    if isinstance(v, (list, dict)):
+        return json.dumps(v, sort_keys=True, separators=(",", ":"))
+    return v
+
+
+def axis_cells(plan, shot) -> dict:
+    """Values of the swept parameters of a shot as CSV cells (labels for tables)."""
+    out = {}
+    for ax in plan.axes:
+        v = shot.params[ax.name]
+        out[ax.name] = v if isinstance(v, (int, float, str, bool)) else shot.labels[ax.name]
+    return out
+
+
+def frame_cells(shot, i) -> dict:
+    fs = shot.frames
+    return {"t_s": float(fs.t_s[i]), "heading_deg": float(fs.yaw_deg[i]),
+            "pitch_deg": float(fs.pitch_deg[i]), "roll_deg": float(fs.roll_deg[i]),
+            "lat_deg": float(fs.lat_deg[i]), "lon_deg": float(fs.lon_deg[i]),
+            "alt_km": float(fs.alt_km[i]),
+            "field_north_nt": float(fs.b_ned_T[i, 0] * 1e9),
+            "field_east_nt": float(fs.b_ned_T[i, 1] * 1e9),
+            "field_down_nt": float(fs.b_ned_T[i, 2] * 1e9),
+            "coil": fs.coil[i], "response": fs.response[i]}
+
+
+def conditions_csv(plan, entries) -> bytes:
+    """One row per frame image file: path (relative), shot, view, frame, parameters."""
+    axes = [a.name for a in plan.axes]
+    fcols = list(frame_cells(plan.shots[0], 0))
+    cols = ["file", "encoding", "shot_id", "view", "frame"] + axes + fcols
+    rows = []
+    for shot in plan.shots:
+        entry = entries[shot.index]
+        base = {"shot_id": shot.shot_id, **axis_cells(plan, shot)}
+        frame_recs = [r for r in entry["files"] if r.get("frame") is not None]
+        for rec in sorted(frame_recs, key=lambda r: (r["frame"], r["path"])):
+            rows.append({**base, "file": rec["path"], "encoding": rec["encoding"],
+                         "view": rec["view"], "frame": rec["frame"],
+                         **frame_cells(shot, rec["frame"])})
+    return csv_bytes(cols, rows)
+
+
+def metric_names(entries) -> list[str]:
+    names = []
+    for e in entries.values():
+        for m in e.get("metrics", []):
+            for k in m:
+                if k not in names:
+                    names.append(k)
+    return names
+
+
+def metrics_csv(plan, entries) -> bytes:
+    axes = [a.name for a in plan.axes]
+    names = metric_names(entries)
+    cols = ["shot_id", "frame", "t_s"] + axes + ["coil", "response"] + names
+    rows = []
+    for shot in plan.shots:
+        ms = entries[shot.index].get("metrics", [])
+        for i, m in enumerate(ms):
+            rows.append({"shot_id": shot.shot_id, "frame": i, "t_s": float(shot.frames.t_s[i]),
+                         **axis_cells(plan, shot), "coil": shot.frames.coil[i],
+                         "response": shot.frames.response[i], **m})
+    return csv_bytes(cols, rows)
+
+
+def metrics_dataset(plan, entries):
+    """xarray Dataset: every metric over (sweep dimensions..., frame); NaN-padded frames."""
+    import xarray as xr
+
+    from .outputs import CAUTION
+
+    names = metric_names(entries)
+    dims = [d[0] for d in plan.dims] + ["frame"]
+    shape = [d[1] for d in plan.dims] + [plan.max_frames]
+    data = {n: np.full(shape, np.nan) for n in names}
+    t = np.full(shape, np.nan)
+    for shot in plan.shots:
+        idx = tuple(shot.coords[d[0]] for d in plan.dims)
+        for i, m in enumerate(entries[shot.index].get("metrics", [])):
+            for n, v in m.items():
+                data[n][idx + (i,)] = v
+            t[idx + (i,)] = shot.frames.t_s[i]
+    coords = {"frame": np.arange(plan.max_frames)}
+    for d in plan.dims:
+        for name in d[2]:
+            ax = next(a for a in plan.axes if a.name == name)
+            vals = list(ax.values) if ax.scalar and not any(isinstance(v, bool) for v in ax.values) \
+                else list(ax.labels)
+            coords[name] = ((d[0],), np.asarray(vals))
+            coords[name + "_label"] = ((d[0],), np.asarray(ax.labels, dtype=str))
+    ds = xr.Dataset({n: (dims, a) for n, a in data.items()}, coords=coords)
+    ds["t_s"] = (dims, t)
+    ds["t_s"].attrs["units"] = "s"
+    for n in names:
+        for suffix, unit in (("_ut", "uT"), ("_deg", "degree")):
+            if n.endswith(suffix):
+                ds[n].attrs["units"] = unit
+    ds.attrs["title"] = f"magretina study {plan.study.resolved['study']['name']}"
+    ds.attrs["caution"] = CAUTION
+    ds.attrs["config"] = json.dumps(plan.study.resolved, sort_keys=True, default=str)
+    ds.attrs["config_sha256"] = plan.study.config_sha256
+    ds.attrs["study_file_sha256"] = plan.study.sha256
+    return ds
+
+
+def netcdf_bytes(ds) -> bytes:
+    """NetCDF-4 bytes of a Dataset (engine h5netcdf)."""
+    return bytes(ds.to_netcdf(engine="h5netcdf"))
+
+
+def write_bytes(path, data):
+    return atomic_write_bytes(path, data)

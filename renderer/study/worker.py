@@ -1,0 +1,115 @@
+"""Work units run by the executors: render a chunk of frames, finish a shot.
+
+:func:`render_chunk` renders some frames of one shot (every view, every frame
+encoding), writes each file atomically, and returns the file records (path,
+SHA-256 of the bytes written, size) and the frame metrics.  :func:`finish_shot`
+reads the shot's 8-bit frames back and writes its previews and videos.  Both are
+plain functions of picklable arguments so a process pool and Dask run the same
+code and produce the same bytes.  The shared :class:`~.build.Resources` come
+either as an argument (Dask passes a scattered future) or from the per-process
+cache filled by :func:`init_worker` (the local pool).  No decisions about what to
+render are made here (see :mod:`.runner`).
+"""
+
+from __future__ import annotations
+
+import os
+
+import numpy as np
+
+_RESOURCES: dict = {}
+
+
+def init_worker(resources: dict, numba_threads: int | None):
+    """Process-pool initializer: keep the shared resources, set numba's thread count,
+    and leave Ctrl-C to the parent (which terminates the pool)."""
+    import signal
+
+    signal.signal(signal.SIGINT, signal.SIG_IGN)
+    _RESOURCES.clear()
+    _RESOURCES.update(resources)
+    _set_threads(numba_threads)
+
+
+def _set_threads(n):
+    if n:
+        import numba
+
+        numba.set_num_threads(max(1, min(int(n), numba.config.NUMBA_NUM_THREADS)))
+
+
+def render_chunk(task: dict, resources=None) -> dict:
+    """Render frames ``task["frames"]`` of one shot; see the module docstring.
+
+    Returns ``{"shot", "records": [...], "metrics": {frame: {...}}, "frames": n}``.
+    """
+    from ..composite import to_uint8_srgb, to_uint16_linear
+    from ..field import FieldVector
+    from ..io import atomic_write_bytes, png_bytes
+    from ..pipeline import composite_inputs, prepare, visual_field_mean
+    from ..pose import Pose
+    from . import metrics as metrics_mod
+    from .outputs import sha256_bytes
+
+    res = resources if resources is not None else _RESOURCES[task["res_key"]]
+    _set_threads(task.get("numba_threads"))
+    out_dir = task["out_dir"]
+    records, metrics = [], {}
+    for fr in task["frames"]:
+        i = fr["index"]
+        field = FieldVector(np.asarray(fr["b_ned_T"]), model=task["field_model"])
+        pose = Pose(fr["yaw_deg"], fr["pitch_deg"], fr["roll_deg"])
+        rkey = fr["response"]
+        response, product = res.responses[rkey], res.products[rkey]
+        inputs = prepare(field, pose, res.layout, response, product)
+        mean = visual_field_mean(inputs)
+        if mean == 0.0:
+            raise ValueError(f"{task['shot_id']} frame {i}: the mean signal over the visual "
+                             f"field is 0; modulation undefined")
+        for vname, view in res.views.items():
+            targets = fr["files"][vname]  # encoding -> relative path to write (only those)
+            if not targets:
+                continue
+            img = composite_inputs(inputs, mean, res.layout, view, res.scene, task["gain"],
+                                   task["outside"])
+            for enc, rel in targets.items():
+                arr = to_uint8_srgb(img) if enc == "png8" else to_uint16_linear(img)
+                data = png_bytes(arr)
+                atomic_write_bytes(os.path.join(out_dir, rel), data)
+                records.append({"path": rel, "sha256": sha256_bytes(data), "bytes": len(data),
+                                "frame": i, "view": vname, "encoding": enc})
+        if fr["metrics"]:
+            ctx = dict(shot=task["shot"], shot_id=task["shot_id"], frame=i, t_s=fr["t_s"],
+                       seed=task["seed"], params=task["params"], field=field,
+                       ambient_ned_T=np.asarray(fr["ambient_ned_T"]), pose=pose,
+                       layout=res.layout, response=response, product=product,
+                       gain=task["gain"], views=res.views, inputs=inputs, mean_signal=mean,
+                       metric_views=res.metric_views)
+            metrics[i] = metrics_mod.compute(ctx, task["providers"], task["provider_options"])
+    return {"shot": task["shot"], "records": records, "metrics": metrics,
+            "frames": len(task["frames"])}
+
+
+def finish_shot(task: dict, resources=None) -> dict:
+    """Write the previews and videos of one shot from its 8-bit frames on disk."""
+    import imageio.v3 as iio
+
+    from ..io import atomic_write_bytes
+    from .exports import preview_bytes, write_video
+    from .outputs import sha256_bytes, sha256_file
+
+    out_dir = task["out_dir"]
+    records = []
+    for item in task["items"]:
+        frames = (iio.imread(os.path.join(out_dir, p)) for p in item["frames"])
+        path = os.path.join(out_dir, item["path"])
+        if item["kind"] in ("gif", "apng"):
+            data = preview_bytes(frames, item["fps"], item["kind"], item["max_width"])
+            atomic_write_bytes(path, data)
+            sha, size = sha256_bytes(data), len(data)
+        else:
+            write_video(path, frames, item["fps"], item["video"], item["codec"], item["crf"])
+            sha, size = sha256_file(path), os.path.getsize(path)
+        records.append({"path": item["path"], "sha256": sha, "bytes": size, "frame": None,
+                        "view": item["view"], "encoding": item["encoding"]})
+    return {"shot": task["shot"], "records": records, "finish": True}

@@ -1,0 +1,174 @@
+"""The HTML study report, built from a real study run and checked in headless Chromium."""
+
+import io
+import json
+import os
+import re
+import shutil
+
+import pytest
+
+from renderer.cli import main
+from renderer.errors import MagretinaError
+from renderer.report import build_report, browser_check, find_browser
+
+STUDY = """
+[study]
+name = "report-fixture"
+seed = 7
+
+[site]
+lat_deg = 40.0
+lon_deg = 5.0
+
+[field]
+model = "dipole"
+date = "2026-05-20"
+
+[layout]
+preset = "lateral"
+
+[response]
+kind = "legendre"
+coeffs = [0.70, 0.0, 0.10]
+
+[views.world]
+kind = "world-panorama"
+width = 64
+
+[scene]
+kind = "dusk"
+
+[render]
+gain = 1.0
+
+[sequence]
+kind = "heading-sweep"
+start_deg = 0.0
+stop_deg = 360.0
+step_deg = 120.0
+fps = 1.0
+
+[output]
+preview = "none"
+netcdf = false
+
+[metrics]
+providers = ["basic", "prediction"]
+grid_width = 60
+
+[metrics.options.prediction]
+density = 0.01
+heading_step_deg = 30.0
+
+[[sweep.axis]]
+key = "site.lat_deg"
+values = [0.0, 60.0]
+name = "latitude_deg"
+"""
+
+NEED_BROWSER = ("no Chromium found on PATH (chromium, chromium-browser, google-chrome); "
+                "install it with 'apt-get install -y chromium' to run the browser check")
+
+
+@pytest.fixture(scope="module")
+def study_dir(tmp_path_factory):
+    from renderer.study.runner import run_study
+
+    base = tmp_path_factory.mktemp("study")
+    toml = base / "fixture.toml"
+    toml.write_text(STUDY)
+    out = base / "out"
+    run_study(str(toml), str(out), jobs=1, progress=False, stream=io.StringIO())
+    return out
+
+
+def _refs(text):
+    return re.findall(r"""(?:src|href)=['"]([^'"]+)['"]""", text)
+
+
+def test_report_is_self_contained(study_dir):
+    """Every reference is a data URI or a relative path to a file of the study folder
+    (so the page opens from disk with no server or network); the caution, the sweep
+    axis, each frame link and the metrics table are present."""
+    path = build_report(study_dir)
+    assert path == os.path.join(str(study_dir), "report.html")
+    text = open(path, encoding="utf-8").read()
+    assert "not measurements" in text and "latitude_deg" in text
+    refs = _refs(text)
+    links = [r for r in refs if not r.startswith("data:")]
+    manifest = [json.loads(line) for line in open(study_dir / "manifest.jsonl")]
+    frames = sorted(f["path"] for e in manifest for f in e["files"] if f["encoding"] == "png8")
+    assert sorted(links) == frames and len(frames) == 6
+    for r in links:
+        assert "://" not in r and not r.startswith("/")
+        assert os.path.isfile(os.path.join(str(study_dir), r))
+    assert sum(r.startswith("data:image/png;base64,") for r in refs) >= 6 + 1
+    header = open(study_dir / "metrics.csv").readline().strip().split(",")
+    assert all(f"<th>{h}</th>" in text for h in header)
+    assert "crb_mean_deg against sweep axis latitude_deg" in text
+
+
+def test_report_loads_in_headless_chromium(study_dir):
+    """Real browser: Chromium from the system packages, headless, fresh profile, driven
+    over the DevTools protocol; the page must load with no console errors and every image
+    must decode (complete with a natural width > 0)."""
+    if find_browser() is None:
+        pytest.skip(NEED_BROWSER)
+    path = build_report(study_dir)
+    res = browser_check(path)
+    assert res["console_errors"] == []
+    assert len(res["images"]) == len(re.findall(r"<img ", open(path).read()))
+    assert all(i["complete"] and i["w"] > 0 and i["h"] > 0 for i in res["images"]), res["images"]
+    assert res["title"].startswith("magretina study report")
+
+
+def test_browser_check_sees_broken_pages(tmp_path):
+    """Negative control: a missing image and a console error are reported, so a clean
+    result on the report means something."""
+    if find_browser() is None:
+        pytest.skip(NEED_BROWSER)
+    page = tmp_path / "bad.html"
+    page.write_text("<!DOCTYPE html><html><head><title>x</title></head><body>"
+                    "<img src='missing.png'><script>console.error('boom')</script></body></html>")
+    res = browser_check(page)
+    assert any("boom" in e for e in res["console_errors"])
+    assert not res["images"][0]["complete"] or res["images"][0]["w"] == 0
+
+
+def test_report_cli_with_browser_check(study_dir, capsys):
+    if find_browser() is None:
+        pytest.skip(NEED_BROWSER)
+    out = study_dir / "sub" / "r.html"
+    assert main(["report", str(study_dir), "--out", str(out), "--check-browser"]) == 0
+    text = capsys.readouterr().out
+    assert "0 not rendered, 0 console error(s)" in text
+    assert all(os.path.isfile(os.path.join(str(out.parent), r))
+               for r in _refs(out.read_text()) if not r.startswith("data:"))
+
+
+def test_report_bad_inputs(tmp_path, study_dir, capsys):
+    with pytest.raises(MagretinaError, match="no such folder"):
+        build_report(tmp_path / "nope")
+    with pytest.raises(MagretinaError, match="no study.json"):
+        build_report(tmp_path)
+    empty = tmp_path / "empty"
+    empty.mkdir()
+    shutil.copy(study_dir / "study.json", empty / "study.json")
+    with pytest.raises(MagretinaError, match="no finished shots"):
+        build_report(empty)
+    assert main(["report", str(empty)]) == 2
+    err = capsys.readouterr().err
+    assert "no finished shots" in err and "Traceback" not in err
+    with pytest.raises(MagretinaError, match="no Chromium browser found"):
+        browser_check(tmp_path / "x.html", browser="no-such-browser-here")
+    fake = tmp_path / "fakebrowser"
+    fake.write_text("#!/bin/sh\nexit 3\n")
+    fake.chmod(0o755)
+    page = tmp_path / "p.html"
+    page.write_text("<html></html>")
+    with pytest.raises(MagretinaError, match="cannot start"):
+        browser_check(page, browser=str(fake), timeout_s=5)
+    assert main(["report", str(study_dir), "--force", "--check-browser", "--browser", str(fake)]) == 2
+    assert "cannot start" in capsys.readouterr().err
+    assert main(["report", str(study_dir)]) == 2  # report.html exists: needs --force
