@@ -201,6 +201,55 @@ def _sweep_plots(study, tmp):
     return out
 
 
+def _model_plots(study, tmp):
+    """Response, pattern and heading-precision plots for the first frame of the first shot.
+
+    Rebuilt from the resolved configuration with the study builder's public functions
+    and the field and pose recorded in metrics.csv (basic provider).  Returns
+    (list of (caption, bytes), note or "").
+    """
+    from . import plots
+    from .field import fixed
+    from .pose import Pose
+
+    header, rows = study["metrics_header"], study["metrics_rows"]
+    cfg = study["sidecar"].get("resolved_config")
+    if not rows or not isinstance(cfg, dict):
+        return [], "Model plots left out: no resolved configuration or metrics rows."
+    row = dict(zip(header, rows[0]))
+    try:
+        from .study.build import build_layout, build_response
+
+        layout = build_layout(cfg["layout"], study["dir"])
+        response = build_response(cfg["response"], study["dir"])
+        product = cfg["response"].get("product", "singlet")
+        gain = float(cfg.get("render", {}).get("gain", 1.0))
+        field = fixed(float(row["field_total_ut"]), float(row["inclination_deg"]),
+                      float(row["declination_deg"]))
+        pose = Pose(float(row["yaw_deg"]), float(row["pitch_deg"]), float(row["roll_deg"]))
+        out = []
+        where = f"shot {row.get('shot_id', '?')}, frame {row.get('frame', '?')}"
+        p = plots.plot_response(response, os.path.join(tmp, "response.png"), product)
+        out.append((f"Receptor response ({product} signal) of {where}", open(p, "rb").read()))
+        p = plots.plot_pattern(field, pose, layout, response, os.path.join(tmp, "pattern.png"),
+                               width=360, product=product, gain=gain)
+        out.append((f"Modulation pattern with θ contours, head frame, {where}",
+                    open(p, "rb").read()))
+        from .predict import fisher_information, options_to_models
+        from .mosaic import build_mosaic
+
+        opts = cfg.get("metrics", {}).get("options", {}).get("prediction", {}) or {}
+        spec, counts = options_to_models(opts, gain)
+        fr = fisher_information(field, layout, response, build_mosaic(layout, spec), counts,
+                                np.arange(0.0, 360.0, 5.0), pose.pitch_deg, pose.roll_deg, product)
+        p = plots.plot_precision(fr, os.path.join(tmp, "precision.png"))
+        out.append((f"Cramér–Rao bound vs heading for the field and pose of {where} (mosaic "
+                    f"{spec.describe()}, counts {counts.describe()})", open(p, "rb").read()))
+        return out, ""
+    except (MagretinaError, KeyError, TypeError, ValueError, ImportError) as exc:
+        return [], f"Model plots left out: {type(exc).__name__}: {exc}"
+
+
 _CSS = """
 body{font-family:sans-serif;margin:1.5em;max-width:1400px;color:#222}
 .caution{border:2px solid #b60;background:#fff4e0;padding:.6em 1em;margin:1em 0}
@@ -282,10 +331,13 @@ def build_report(study_dir, out=None, thumb_px=192, max_frames=400, max_rows=200
     # plots
     tmp = tempfile.mkdtemp(prefix="magretina-report-")
     try:
-        plot_list = _sweep_plots(study, tmp)
+        model_list, model_note = _model_plots(study, tmp)
+        plot_list = model_list + _sweep_plots(study, tmp)
     finally:
         shutil.rmtree(tmp, ignore_errors=True)
     parts.append("<h2>Plots</h2><div class='plots'>")
+    if model_note:
+        parts.append(f"<p>{esc(model_note)}</p>")
     if not plot_list:
         parts.append("<p>No metric varies across the study; nothing to plot.</p>")
     for cap, data in plot_list:

@@ -68,7 +68,7 @@ def response_from_args(a):
 
 def add_view_args(p, default_width=1024):
     g = p.add_argument_group("view and scene")
-    g.add_argument("--view", default="world-panorama", help="world-panorama | head-panorama | eye-disc")
+    g.add_argument("--view", default="world-panorama", help="world-panorama | head-panorama | eye-disc | perspective | retina")
     g.add_argument("--width", type=int, default=default_width, help="panorama width or disc size, pixels")
     g.add_argument("--eye", default=None, help="eye name or index (eye-disc, or to show one eye only)")
     g.add_argument("--scene", default=None, help="2:1 equirectangular scene image (default: procedural dusk)")
@@ -84,7 +84,7 @@ def view_from_args(a):
     eye = a.eye
     if eye is not None and eye.isdigit():
         eye = int(eye)
-    if a.view == "eye-disc":
+    if a.view in ("eye-disc", "retina"):
         return REGISTRY[a.view](eye=0 if eye is None else eye, size=a.width)
     return REGISTRY[a.view](width=a.width, pick=eye)
 

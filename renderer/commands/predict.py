@@ -87,7 +87,14 @@ def register(sub):
     g = p.add_argument_group("output")
     g.add_argument("--json", action="store_true", help="print JSON instead of a table")
     g.add_argument("--plots", metavar="DIR", help="also write the plots (PNG) into DIR")
-    g.add_argument("--force", action="store_true", help="overwrite existing plot files")
+    g.add_argument("--noisy", metavar="PNG",
+                   help="also write one noisy receptor-level realisation of the composited "
+                        "world panorama (8-bit sRGB) here")
+    g.add_argument("--noisy-seed", type=int, default=0, help="seed of the noisy realisation")
+    g.add_argument("--width", type=int, default=1024, help="width of the --noisy panorama, pixels")
+    g.add_argument("--scene", default=None, help="2:1 scene for --noisy (default: procedural dusk)")
+    g.add_argument("--north-col", type=float, default=None, help="column of north in --scene")
+    g.add_argument("--force", action="store_true", help="overwrite existing output files")
     p.set_defaults(func=run)
 
 
@@ -113,6 +120,8 @@ def run(a) -> int:
         names = ["response.png", "pattern.png", "precision.png"]
         plot_paths = [os.path.join(a.plots, n) for n in names]
         _common.refuse_overwrite(plot_paths, a.force)
+    if a.noisy:
+        _common.refuse_overwrite([a.noisy], a.force)
     metrics, fr = predict_summary(field, pose, layout, response, spec, counts, a.product,
                                   np.arange(0.0, 360.0, step), a.threshold)
     assumptions = {"field": field.as_dict() if hasattr(field, "as_dict") else str(field),
@@ -128,6 +137,18 @@ def run(a) -> int:
         plots.plot_pattern(field, pose, layout, response, plot_paths[1], product=a.product,
                            gain=a.gain)
         plots.plot_precision(fr, plot_paths[2])
+    if a.noisy:
+        from ..io import write_png8_srgb
+        from ..mosaic import build_mosaic
+        from ..predict.noisy import render_noisy
+        from ..views import WorldPanorama
+
+        view = WorldPanorama(a.width)
+        img = render_noisy(field, pose, layout, response, view, build_mosaic(layout, spec), counts,
+                           scene=_common.scene_from_args(a, a.width), seed=a.noisy_seed,
+                           product=a.product)
+        write_png8_srgb(a.noisy, img)
+        plot_paths.append(a.noisy)
     if a.json:
         json.dump({"caution": CAUTION, "assumptions": assumptions, "metrics": metrics,
                    "crb_deg_vs_heading": {"headings_deg": fr.headings_deg.tolist(),

@@ -22,7 +22,7 @@ from scipy.spatial.transform import Rotation
 
 from ..errors import MagretinaError, check_range
 from . import optics
-from .alignment import Alignment, parse_alignment
+from .alignment import parse_alignment
 
 SIDES = ("", "left", "right")
 

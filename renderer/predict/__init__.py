@@ -22,6 +22,31 @@ __all__ = ["FisherResult", "fisher_information", "make_setup", "NOISE", "CountMo
 
 _MOSAICS = {}
 
+#: Keys of ``[metrics.options.prediction]`` in a study file.
+OPTION_KEYS = ("density", "unit", "method", "seed", "pool_radius_deg", "flux_per_s",
+               "integration_ms", "luminance", "noise", "floor_counts", "heading_step_deg",
+               "threshold")
+
+
+def options_to_models(o, gain):
+    """(MosaicSpec, CountModel) from a study's prediction options (see :func:`study_metrics`)."""
+    from ..errors import MagretinaError
+    from ..mosaic import MosaicSpec
+
+    bad = sorted(set(o) - set(OPTION_KEYS))
+    if bad:
+        raise MagretinaError(f"metrics.options.prediction: unknown key(s) {', '.join(bad)}; "
+                             f"allowed: {', '.join(OPTION_KEYS)}")
+    spec = MosaicSpec(density=o.get("density", 0.02), unit=o.get("unit", "deg2"),
+                      method=o.get("method", "jittered"), seed=o.get("seed", 0),
+                      pool_radius_deg=o.get("pool_radius_deg", 0.0))
+    noise = make_noise("gaussian", floor_counts=o.get("floor_counts", 1.0)) \
+        if o.get("noise", "poisson") == "gaussian" else make_noise(o.get("noise", "poisson"))
+    counts = CountModel(flux_per_s=o.get("flux_per_s", 1.0e4),
+                        integration_s=float(o.get("integration_ms", 100.0)) * 1e-3,
+                        gain=gain, luminance=o.get("luminance", 1.0), noise=noise)
+    return spec, counts
+
 
 def study_metrics(ctx) -> dict:
     """Study metric provider (``[metrics] providers = ["prediction"]``).
@@ -32,36 +57,20 @@ def study_metrics(ctx) -> dict:
     ``integration_ms`` (100), ``luminance`` (1), ``noise`` ("poisson"),
     ``floor_counts`` (1), ``heading_step_deg`` (10), ``threshold`` (0.01).  The
     study's gain is the modulation gain.  Returns the flat dict of
-    :func:`renderer.predict.summary.predict_summary` with ``pred_`` prefixed
-    where a name could clash with the basic provider.
+    :func:`renderer.predict.summary.predict_summary` (its names do not clash with the
+    basic provider's).
     """
     import numpy as np
 
-    from ..mosaic import MosaicSpec, build_mosaic
+    from ..mosaic import build_mosaic
     from .summary import predict_summary
 
     o = dict(getattr(ctx, "options", {}) or {})
-    allowed = {"density", "unit", "method", "seed", "pool_radius_deg", "flux_per_s",
-               "integration_ms", "luminance", "noise", "floor_counts", "heading_step_deg",
-               "threshold"}
-    bad = sorted(set(o) - allowed)
-    if bad:
-        from ..errors import MagretinaError
-
-        raise MagretinaError(f"metrics.options.prediction: unknown key(s) {', '.join(bad)}; "
-                             f"allowed: {', '.join(sorted(allowed))}")
-    spec = MosaicSpec(density=o.get("density", 0.02), unit=o.get("unit", "deg2"),
-                      method=o.get("method", "jittered"), seed=o.get("seed", 0),
-                      pool_radius_deg=o.get("pool_radius_deg", 0.0))
+    spec, counts = options_to_models(o, ctx.gain)
     key = (ctx.layout, spec)
     if key not in _MOSAICS:
         _MOSAICS.clear()  # one geometry at a time is enough for a worker
         _MOSAICS[key] = build_mosaic(ctx.layout, spec)
-    noise = make_noise("gaussian", floor_counts=o.get("floor_counts", 1.0)) \
-        if o.get("noise", "poisson") == "gaussian" else make_noise(o.get("noise", "poisson"))
-    counts = CountModel(flux_per_s=o.get("flux_per_s", 1.0e4),
-                        integration_s=float(o.get("integration_ms", 100.0)) * 1e-3,
-                        gain=ctx.gain, luminance=o.get("luminance", 1.0), noise=noise)
     step = float(o.get("heading_step_deg", 10.0))
     m, _ = predict_summary(ctx.field, ctx.pose, ctx.layout, ctx.response, spec, counts,
                            ctx.product, np.arange(0.0, 360.0, step), o.get("threshold", 0.01),

@@ -17,10 +17,14 @@ The ``[timeline]`` table then applies laboratory coil steps by frame time
 (``TIMELINE_ACTIONS``): ``rotate`` the horizontal component by ``angle_deg``
 (clockwise seen from above, i.e. magnetic north moves toward east), ``invert``
 the vertical component, ``scale`` by ``factor``, ``zero`` the field, ``ambient``
-(back to the unmanipulated field), and ``response`` (switch the receptor response
-to a named ``[responses.NAME]`` table, e.g. one computed with a radio-frequency
-field on; an ``rf`` action would be one more entry here).  Steps compose in time
-order; ``ambient`` resets every manipulation.  Nothing here renders.
+(back to the unmanipulated field), ``response`` (switch the receptor response to
+a named ``[responses.NAME]`` table), and ``rf-on`` / ``rf-off``: a radio-frequency
+field switched on selects the response table computed with it (``select``, a
+``[responses.NAME]`` entry) and records its ``amplitude_nT``, ``frequency_MHz``
+and ``direction`` (checked with :class:`renderer.spin.rf.RFField`); off returns to
+the default response.  Steps compose in time order; ``ambient`` resets the coil
+manipulations (not the RF state).  Adding an action is one entry in
+``STEP_KEYS`` and one in ``TIMELINE_ACTIONS``.  Nothing here renders.
 
 Adding a sequence kind: write ``_kind(cfg, ctx) -> FrameSeries`` and its key schema
 and add both to ``SEQUENCES``.
@@ -114,6 +118,14 @@ STEP_KEYS = {
     "zero": {},
     "ambient": {},
     "response": {"select": Key(str, REQUIRED)},
+    # RF on: switch to the response table computed with the oscillating field on
+    # (a [responses.NAME] entry); the RF parameters are recorded and checked with
+    # renderer.spin.rf.RFField.  RF off: back to the default response.
+    "rf-on": {"select": Key(str, REQUIRED),
+              "amplitude_nT": Key(float, None, lo=0.0, hi=1e9, unit="nT"),
+              "frequency_MHz": Key(float, None, lo=0.0, hi=1e6, lo_open=True, unit="MHz"),
+              "direction": Key(list, None)},
+    "rf-off": {},
 }
 
 
@@ -185,7 +197,10 @@ def check_timeline(tbl, response_names, problems) -> dict:
         schema = {"t_s": Key(float, REQUIRED, lo=0.0, unit="s"),
                   "action": Key(str, REQUIRED), **STEP_KEYS[action]}
         s = check_table(path, st, schema, problems)
-        if action == "response" and s.get("select") is not None and \
+        if action == "rf-on" and (s.get("amplitude_nT") is not None
+                                  or s.get("frequency_MHz") is not None):
+            _check_rf(path, s, problems)
+        if action in ("response", "rf-on") and s.get("select") is not None and \
                 s["select"] != "default" and s["select"] not in response_names:
             problems.append(f"{path}.select = {s['select']!r}: allowed 'default'"
                             + "".join(f", {n!r}" for n in sorted(response_names))
@@ -198,6 +213,22 @@ def check_timeline(tbl, response_names, problems) -> dict:
             last = t
         out.append(s)
     return {"steps": out}
+
+
+def _check_rf(path, s, problems):
+    try:
+        from ..spin.rf import RFField
+    except ImportError:  # the spin package is optional for plain studies
+        return
+    if s.get("amplitude_nT") is None or s.get("frequency_MHz") is None:
+        problems.append(f"{path}: give both amplitude_nT and frequency_MHz (or neither)")
+        return
+    try:
+        rf = RFField.from_trade_units(s["amplitude_nT"], s["frequency_MHz"],
+                                      direction=tuple(s.get("direction") or (1.0, 0.0, 0.0)))
+        s["rf"] = rf.describe()
+    except (MagretinaError, TypeError, ValueError) as exc:
+        problems.append(f"{path}: {exc}")
 
 
 # ---------------------------------------------------------------------------- building
@@ -413,6 +444,7 @@ class CoilState:
     scale: float = 1.0
     zero: bool = False
     response: str = "default"
+    rf: str = ""
 
     def label(self) -> str:
         if self == CoilState():
@@ -427,7 +459,9 @@ class CoilState:
                 parts.append("invert")
             if self.scale != 1.0:
                 parts.append(f"scale{self.scale:g}")
-        if self.response != "default":
+        if self.rf:
+            parts.append(f"rf:{self.rf}")
+        elif self.response != "default":
             parts.append(f"response:{self.response}")
         return "+".join(parts) or "ambient"
 
@@ -449,8 +483,10 @@ TIMELINE_ACTIONS = {
     "invert": lambda st, step: replace(st, vertical_sign=-st.vertical_sign),
     "scale": lambda st, step: replace(st, scale=st.scale * step["factor"]),
     "zero": lambda st, step: replace(st, zero=True),
-    "ambient": lambda st, step: replace(CoilState(), response=st.response),
-    "response": lambda st, step: replace(st, response=step["select"]),
+    "ambient": lambda st, step: replace(CoilState(), response=st.response, rf=st.rf),
+    "response": lambda st, step: replace(st, response=step["select"], rf=""),
+    "rf-on": lambda st, step: replace(st, response=step["select"], rf=step["select"]),
+    "rf-off": lambda st, step: replace(st, response="default", rf=""),
 }
 
 

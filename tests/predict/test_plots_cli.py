@@ -72,6 +72,9 @@ def test_predict_table_and_plots(capsys, tmp_path):
     assert text.startswith("CAUTION:") and "crb_mean_deg" in text and "gaussian" in text
     for n in ("response.png", "pattern.png", "precision.png"):
         _png(tmp_path / n)
+    noisy = tmp_path / "noisy.png"
+    assert main(ARGS + ["--noisy", str(noisy), "--width", "128", "--flux", "300"]) == 0
+    assert iio.imread(noisy).shape == (64, 128, 3)
     assert main(ARGS + ["--plots", str(tmp_path)]) == 2  # refuses to overwrite
     assert "--force" in capsys.readouterr().err
 

@@ -51,7 +51,7 @@ fps = 1.0
 
 [output]
 preview = "none"
-netcdf = false
+netcdf = true
 
 [metrics]
 providers = ["basic", "prediction"]
@@ -107,6 +107,44 @@ def test_report_is_self_contained(study_dir):
     header = open(study_dir / "metrics.csv").readline().strip().split(",")
     assert all(f"<th>{h}</th>" in text for h in header)
     assert "crb_mean_deg against sweep axis latitude_deg" in text
+    for caption in ("Receptor response", "Modulation pattern with θ contours",
+                    "Cramér–Rao bound vs heading"):
+        assert caption in text
+    assert "Model plots left out" not in text
+
+
+def test_prediction_metrics_are_study_outputs(study_dir):
+    """The "prediction" provider's numbers land in metrics.csv and in the NetCDF dataset
+    over the sweep axis and frame, and equal a direct library call for the same shot."""
+    import csv
+
+    import numpy as np
+    import xarray as xr
+
+    from renderer.eye import load_layout
+    from renderer.field import fixed
+    from renderer.mosaic import MosaicSpec
+    from renderer.pose import Pose
+    from renderer.predict import CountModel
+    from renderer.predict.summary import predict_summary
+    from renderer.response import Legendre
+
+    rows = list(csv.DictReader(open(study_dir / "metrics.csv")))
+    assert len(rows) == 6 and "crb_mean_deg" in rows[0] and "michelson_left" in rows[0]
+    r = rows[4]
+    ref, _ = predict_summary(fixed(float(r["field_total_ut"]), float(r["inclination_deg"]),
+                                   float(r["declination_deg"])),
+                             Pose(float(r["yaw_deg"])), load_layout("lateral"),
+                             Legendre([0.7, 0.0, 0.1]), MosaicSpec(density=0.01),
+                             CountModel(gain=1.0), headings_deg=np.arange(0, 360, 30.0))
+    assert float(r["crb_at_yaw_deg"]) == pytest.approx(ref["crb_at_yaw_deg"], rel=1e-9)
+    ds = xr.open_dataset(study_dir / "metrics.nc", engine="h5netcdf")
+    try:
+        assert ds["crb_mean_deg"].dims == ("latitude_deg", "frame")
+        assert float(ds["crb_mean_deg"].isel(latitude_deg=1, frame=1)) == pytest.approx(
+            float(r["crb_mean_deg"]), rel=1e-12)
+    finally:
+        ds.close()
 
 
 def test_report_loads_in_headless_chromium(study_dir):

@@ -219,3 +219,43 @@ providers = ["basic", "heading_cos"]
     assert float(rows[0]["seed_low_bits"]) == seed % 1000
     with xr.open_dataset(os.path.join(out, "metrics.nc"), engine="h5netcdf") as ds:
         np.testing.assert_allclose(ds["heading_cos"].values, [1, 0, -1, 0], atol=1e-12)
+
+
+def test_rf_step_selects_response_table(tmp_path):
+    """Timeline rf-on selects the named response table for the frames while the RF
+    field is on, rf-off returns to the default.  With a flat table (c0 only, no
+    angular dependence) the RF frame is the uniform scene (0.5 linear = sRGB code
+    188, IEC 61966-2-1), and frames before and after are identical."""
+    text = FIXED.format(name="rf", layout="lateral").replace(
+        "gain = 1.0", "gain = 1.0\noutside = 1.0") + """
+[responses.rf_flat]
+kind = "legendre"
+coeffs = [0.7]
+
+[views.world]
+kind = "world-panorama"
+width = 32
+
+[sequence]
+kind = "still"
+frames = 3
+fps = 1.0
+
+[timeline]
+steps = [
+  { t_s = 1.0, action = "rf-on", select = "rf_flat", amplitude_nT = 150.0, frequency_MHz = 1.4 },
+  { t_s = 2.0, action = "rf-off" },
+]
+"""
+    out = str(tmp_path / "out")
+    run_study(write(tmp_path, text), out, progress=False)
+    fr = [iio.imread(os.path.join(out, f"frames/shot000/world_{k:04d}.png")) for k in range(3)]
+    np.testing.assert_array_equal(fr[0], fr[2])
+    assert np.all(fr[1] == 188) and fr[0].min() != fr[0].max()
+    with open(os.path.join(out, "conditions.csv"), newline="") as fh:
+        rows = list(csv.DictReader(fh))
+    assert [r["response"] for r in rows] == ["default", "rf_flat", "default"]
+    assert rows[1]["coil"] == "rf:rf_flat"
+    side = json.load(open(os.path.join(out, "study.json")))
+    rf = side["resolved_config"]["timeline"]["steps"][0]["rf"]
+    assert rf["frequency_Hz"] == pytest.approx(1.4e6) and rf["amplitude_T"] == pytest.approx(150e-9)
