@@ -18,6 +18,13 @@ import numpy as np
 from .errors import MagretinaError
 
 
+def _default_mode() -> int:
+    # mkstemp creates files 0600; outputs should get the usual permissions (0666 & ~umask).
+    mask = os.umask(0)
+    os.umask(mask)
+    return 0o666 & ~mask
+
+
 def atomic_write_bytes(path, data: bytes) -> str:
     """Write ``data`` to ``path`` atomically; returns the path."""
     path = os.fspath(path)
@@ -29,6 +36,7 @@ def atomic_write_bytes(path, data: bytes) -> str:
             fh.write(data)
             fh.flush()
             os.fsync(fh.fileno())
+        os.chmod(tmp, _default_mode())
         os.replace(tmp, path)
     except BaseException:
         try:

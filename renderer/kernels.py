@@ -214,7 +214,8 @@ _A0, _A1, _A2, _A3, _A4, _A5, _A6, _A7 = ATAN_COEFFS
 @njit(cache=True, inline="always")
 def _fast_atan(x):
     z = x * x
-    return x * (_A0 + z * (_A1 + z * (_A2 + z * (_A3 + z * (_A4 + z * (_A5 + z * (_A6 + z * _A7)))))))
+    p = _A5 + z * (_A6 + z * _A7)
+    return x * (_A0 + z * (_A1 + z * (_A2 + z * (_A3 + z * (_A4 + z * p)))))
 
 
 @njit(cache=True)
@@ -281,8 +282,8 @@ def _frame_signal(ux, uy, uz, A, B, bx, by, bz, c, p, lut, cube):
         s2 = uy * uy + uz * uz
         if s2 > 0.0:
             inv = 1.0 / math.sqrt(s2)
-            # b·m̂ = (b_y u_y + b_z u_z)/s, e1 = −sin β x̂ + cos β m̂ (sin β = B s, cos β = A),
-            # e2 = x̂ × m̂
+            # b·m̂ = (b_y u_y + b_z u_z)/s, e1 = −sin β x̂ + cos β m̂
+            # (sin β = B s, cos β = A), e2 = x̂ × m̂
             bu = by * uy + bz * uz
             be1 = A * bu * inv - B * bx * s2 * inv
             be2 = (bz * uy - by * uz) * inv
@@ -518,7 +519,8 @@ def _composite_dirs(scene, north_col, dirs, R_head_view, R_world_view, R_eye_hea
         wz = Q[2, 0] * vx + Q[2, 1] * vy + Q[2, 2] * vz
         az = math.atan2(wy, wx)
         el = math.asin(min(1.0, max(-1.0, -wz)))
-        _bilinear(scene, north_col + az * (SW / (2.0 * math.pi)), (0.5 * math.pi - el) * (SH / math.pi), px)
+        _bilinear(scene, north_col + az * (SW / (2.0 * math.pi)), (0.5 * math.pi - el) * (SH / math.pi),
+                  px)
         hx = M[0, 0] * vx + M[0, 1] * vy + M[0, 2] * vz
         hy = M[1, 0] * vx + M[1, 1] * vy + M[1, 2] * vz
         hz = M[2, 0] * vx + M[2, 1] * vy + M[2, 2] * vz

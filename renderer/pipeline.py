@@ -151,7 +151,8 @@ def prepare(field, pose, layout, response, product="singlet", eye_offsets=None) 
             iso[k] = float(np.mean(0.5 * (lut_stack[k, 1:] + lut_stack[k, :-1])))
         if cube_stack is not None:
             mean_full = response_lut(response, product)  # in-plane average of the full response
-            cube_stack = np.full_like(cube_stack, float(np.mean(0.5 * (mean_full[1:] + mean_full[:-1]))))
+            iso_full = float(np.mean(0.5 * (mean_full[1:] + mean_full[:-1])))
+            cube_stack = np.full_like(cube_stack, iso_full)
         lut_stack = iso
         b_head = np.array([0.0, 0.0, 1.0])
     else:

@@ -170,8 +170,8 @@ class Eye:
         if self.azimuth_deg + float(d_azimuth_deg) == 180.0:
             az = 180.0
         tor = (self.torsion_deg + float(d_torsion_deg) + 180.0) % 360.0 - 180.0
-        return replace(self, azimuth_deg=az, elevation_deg=self.elevation_deg + float(d_elevation_deg),
-                       torsion_deg=tor)
+        el = self.elevation_deg + float(d_elevation_deg)
+        return replace(self, azimuth_deg=az, elevation_deg=el, torsion_deg=tor)
 
     def with_alignment(self, alignment) -> "Eye":
         from dataclasses import replace

@@ -43,7 +43,8 @@ def ray_parameter(ux, q, e2=1.0):
     """
     ux = np.clip(np.asarray(ux, dtype=np.float64), -1.0, 1.0)
     s2 = 1.0 - ux * ux
-    # (q − t ux)² e2 + t² s2 = 1  →  k t² − 2 q e2 ux t + (q² e2 − 1) = 0, k = e2 ux² + s2
+    # (q − t ux)² e2 + t² s2 = 1  →  k t² − 2 q e2 ux t + (q² e2 − 1) = 0,
+    # k = e2 ux² + s2
     k = e2 * ux * ux + s2
     half_b = q * e2 * ux
     disc = half_b * half_b - k * (q * q * e2 - 1.0)

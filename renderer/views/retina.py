@@ -106,9 +106,9 @@ class RetinaView(View):
         B = np.radians(self.rim(layout))
         h = 1e-6
         alpha = optics.visual_angle_from_eccentricity(beta, e.nodal_ratio, e.shape_e2)
+        lo = np.maximum(beta - h, 0.0)
         dadb = (optics.visual_angle_from_eccentricity(beta + h, e.nodal_ratio, e.shape_e2)
-                - optics.visual_angle_from_eccentricity(np.maximum(beta - h, 0.0), e.nodal_ratio,
-                                                        e.shape_e2)) / (beta + h - np.maximum(beta - h, 0.0))
+                - optics.visual_angle_from_eccentricity(lo, e.nodal_ratio, e.shape_e2)) / (beta + h - lo)
         dA = (2.0 / n * B) ** 2  # area in the (β, φ) azimuthal-equidistant plane
         sin_ratio = np.where(beta > 0, np.sin(alpha) / np.where(beta > 0, beta, 1.0), dadb)
         return np.where(r <= 1.0, dA * dadb * sin_ratio, 0.0)
