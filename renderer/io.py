@@ -18,11 +18,15 @@ import numpy as np
 from .errors import MagretinaError
 
 
-def _default_mode() -> int:
-    # mkstemp creates files 0600; outputs should get the usual permissions (0666 & ~umask).
+def _read_umask() -> int:
     mask = os.umask(0)
     os.umask(mask)
-    return 0o666 & ~mask
+    return mask
+
+
+# mkstemp creates files 0600; outputs get the usual 0666 & ~umask.  Read once at import,
+# because os.umask is process-wide and briefly changing it is not thread-safe.
+_FILE_MODE = 0o666 & ~_read_umask()
 
 
 def atomic_write_bytes(path, data: bytes) -> str:
@@ -36,7 +40,7 @@ def atomic_write_bytes(path, data: bytes) -> str:
             fh.write(data)
             fh.flush()
             os.fsync(fh.fileno())
-        os.chmod(tmp, _default_mode())
+        os.chmod(tmp, _FILE_MODE)
         os.replace(tmp, path)
     except BaseException:
         try:
