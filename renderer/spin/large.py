@@ -29,6 +29,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from functools import lru_cache
 from itertools import product
 
 import numba
@@ -84,6 +85,7 @@ def _nucleus_key(nuc: Nucleus):
     return (nuc.spin, nuc.gamma_rad_s_T, tuple(np.round(nuc.hyperfine_mT, 12).ravel().tolist()))
 
 
+@lru_cache(maxsize=64)
 def radical_blocks(radical: Radical):
     """Split a radical into total-spin blocks of its groups of equivalent nuclei.
 
@@ -94,9 +96,10 @@ def radical_blocks(radical: Radical):
 
     Returns
     -------
-    list of (float, Radical)
+    tuple of (float, Radical)
         (weight, block radical) with weight = (copies · block nuclear multiplicity) / Z,
-        summing to 1.  A radical without equivalent nuclei returns [(1.0, radical)].
+        summing to 1.  A radical without equivalent nuclei returns ((1.0, radical),).
+        Cached per Radical object, so the blocks' operators are built once.
     """
     groups = {}
     order = []
@@ -107,7 +110,7 @@ def radical_blocks(radical: Radical):
             order.append(key)
         groups[key].append(nuc)
     if all(len(groups[k]) == 1 for k in order):
-        return [(1.0, radical)]
+        return ((1.0, radical),)
     choices = []
     for key in order:
         members = groups[key]
@@ -133,7 +136,7 @@ def radical_blocks(radical: Radical):
                 nuclei.append(nuc)
         sub = Radical(nuclei=tuple(nuclei), g=radical.g, name=radical.name)
         blocks.append((copies * sub.nuclear_multiplicity / z, sub))
-    return blocks
+    return tuple(blocks)
 
 
 # --------------------------------------------------------------------------------------
@@ -233,7 +236,7 @@ def radical_spectrum(radical: Radical, field_T, *, use_blocks=True):
     LineSpectrum
     """
     b = np.asarray(field_T, dtype=np.float64).reshape(3)
-    blocks = radical_blocks(radical) if use_blocks else [(1.0, radical)]
+    blocks = radical_blocks(radical) if use_blocks else ((1.0, radical),)
     parts = []
     for w, sub in blocks:
         ops = radical_operators(sub)

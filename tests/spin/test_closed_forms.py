@@ -24,9 +24,9 @@ def all_methods(pair, fields):
 
 
 def test_no_nuclei_equal_g_is_one(rng):
-    """No nuclei, g_A = g_B: H commutes with S_A·S_B... more simply H = ω(S_Az + S_Bz) maps the
-    singlet onto itself (it has total spin 0), so every P_mn connects degenerate states,
-    ω_mn = 0 wherever P_mn ≠ 0, and Φ_S = (1/M) Σ|P_mn|² = Tr P_S / M = 1."""
+    """No nuclei, g_A = g_B: H = ω·(S_A + S_B) commutes with P_S (the singlet has total spin
+    0), so P_mn ≠ 0 only between degenerate states, ω_mn = 0 there, and
+    Φ_S = (1/M) Σ|P_mn|² = Tr P_S / M = 1."""
     pair = RadicalPair(Radical(), Radical(), k_s=1e6, k_t=1e6)
     fields = random_fields(rng, 5, 1e-3)
     for name, (ps, pt) in all_methods(pair, fields).items():
