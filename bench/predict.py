@@ -53,7 +53,7 @@ def main():
 
     def kernel():
         F.fisher_kernel(b, db, st.axes, st.eye_start, st.amp, st.pool, st.pool_eye, st.pooled,
-                        st.coef, st.gain, st.var_a, st.var_b, J, mn)
+                        st.coef, st.eye_row, st.gain, st.var_a, st.var_b, J, mn)
 
     kernel()  # compile / load cache
     t_total = best_of(kernel, a.repeat)
@@ -66,7 +66,7 @@ def main():
         i = k[0] % 180 * 2
         k[0] += 1
         F.fisher_kernel(b[i:i + 2], db[i:i + 2], st.axes, st.eye_start, st.amp, st.pool,
-                        st.pool_eye, st.pooled, st.coef, st.gain, st.var_a, st.var_b, J2, mn2)
+                        st.pool_eye, st.pooled, st.coef, st.eye_row, st.gain, st.var_a, st.var_b, J2, mn2)
 
     t_kernel = min(best_of(kernel2, 40 * a.repeat) / 2, t_total / 360)
 

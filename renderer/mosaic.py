@@ -114,6 +114,11 @@ class Mosaic:
         Eye of each pool.
     spec : MosaicSpec
     eye_names : tuple of str
+    dirs_eye : (N, 3) float64
+        Unit view directions of the receptors in their eye's frame.  A receptor stays
+        where it is on the retina when the eye moves, so predictions rebuild the head
+        directions, receptor frames and visibility from these (not from ``dirs_head``,
+        which holds for the layout the mosaic was built on).
     """
 
     eye_index: np.ndarray
@@ -123,6 +128,7 @@ class Mosaic:
     pool_eye: np.ndarray
     spec: MosaicSpec
     eye_names: tuple
+    dirs_eye: np.ndarray
 
     @property
     def n_receptors(self) -> int:
@@ -227,7 +233,7 @@ def build_mosaic(layout, spec: MosaicSpec) -> Mosaic:
         Deterministic for a given layout and spec (seeded).
     """
     children = np.random.SeedSequence(int(spec.seed)).spawn(len(layout.eyes))
-    idx, axes, dirs = [], [], []
+    idx, axes, dirs, dirs_e = [], [], [], []
     for k, eye in enumerate(layout.eyes):
         if spec.pool_radius_deg > 0:
             widest = max(eye.nasal_deg, eye.temporal_deg, eye.dorsal_deg, eye.ventral_deg)
@@ -270,12 +276,13 @@ def build_mosaic(layout, spec: MosaicSpec) -> Mosaic:
         idx.append(np.full(u.shape[0], k, np.int32))
         axes.append(a)
         dirs.append(u @ eye.R_head_eye.T)
+        dirs_e.append(u)
     eye_index = np.concatenate(idx)
     axes_eye = np.ascontiguousarray(np.concatenate(axes))
     dirs_head = np.ascontiguousarray(np.concatenate(dirs))
     pool, pool_eye = _pools(layout, spec, eye_index, dirs_head)
     return Mosaic(eye_index, axes_eye, dirs_head, pool, pool_eye, spec,
-                  tuple(e.name for e in layout.eyes))
+                  tuple(e.name for e in layout.eyes), np.ascontiguousarray(np.concatenate(dirs_e)))
 
 
 def _pools(layout, spec, eye_index, dirs_head):
@@ -322,7 +329,7 @@ def explicit_mosaic(layout, eye_index, dirs_eye, spec=None) -> Mosaic:
     N = u.shape[0]
     return Mosaic(eye_index, np.ascontiguousarray(axes), np.ascontiguousarray(dirs),
                   np.arange(N, dtype=np.int32), eye_index.copy(), spec or MosaicSpec(),
-                  tuple(e.name for e in layout.eyes))
+                  tuple(e.name for e in layout.eyes), np.ascontiguousarray(u))
 
 
 __all__ = ["MosaicSpec", "Mosaic", "build_mosaic", "explicit_mosaic", "sphere_jittered",

@@ -14,15 +14,15 @@ from __future__ import annotations
 import numpy as np
 
 from ..errors import MagretinaError
-from .fisher import Setup, counts_numpy, field_eye_vs_heading
+from .fisher import Setup, unit_counts
 
 
 def mean_counts(setup: Setup, headings_deg) -> np.ndarray:
     """Mean counts per readout unit at each heading, shape (H, P)."""
     hd = np.atleast_1d(np.asarray(headings_deg, float))
-    b, db = field_eye_vs_heading(setup.b_world_unit, setup.R_eye_head, setup.M_world_head0,
-                                 np.radians(hd))
-    return np.stack([counts_numpy(setup, b[h], db[h])[0] for h in range(hd.size)])
+    step = max(1, int(2_000_000 // max(setup.axes.shape[0], 1)))
+    return np.concatenate([unit_counts(setup, np.radians(hd[k:k + step]))[0]
+                           for k in range(0, hd.size, step)])
 
 
 def simulate_counts(setup: Setup, noise, heading_deg, n_trials, rng) -> np.ndarray:

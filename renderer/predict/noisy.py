@@ -21,8 +21,32 @@ from ..errors import MagretinaError
 BT709 = np.array([0.2126, 0.7152, 0.0722])
 
 
+def receptor_dirs_head(inputs, mosaic) -> np.ndarray:
+    """Head-frame view directions (N, 3) of the receptors for the eyes as placed in
+    ``inputs`` (so after any eye movement: receptors keep their place on the retina)."""
+    e = mosaic.eye_index
+    return np.einsum("nji,nj->ni", inputs.R_eye_head[e], mosaic.dirs_eye)
+
+
+def receptor_signal(inputs, mosaic) -> np.ndarray:
+    """The rendered signal at every receptor, (N,): :func:`renderer.kernels.signal_numpy`
+    at the receptor's head direction with its own eye picked, so every alignment mode
+    (per-eye tables, ratio, full frame) is read exactly as the frames are drawn."""
+    d = receptor_dirs_head(inputs, mosaic)
+    s = np.empty(mosaic.n_receptors)
+    for k in range(inputs.R_eye_head.shape[0]):
+        sel = mosaic.eye_index == k
+        if sel.any():
+            s[sel] = kernels.signal_numpy(d[sel], inputs.R_eye_head, inputs.eye_params,
+                                          inputs.b_eye, inputs.lut, pick=k, cubes=inputs.cubes)
+    if np.any(np.isnan(s)):
+        raise MagretinaError("mosaic: some receptors lie outside their eye's field of view in "
+                             "this layout; build the mosaic on this layout")
+    return s
+
+
 def receptor_factors(field, pose, layout, response, mosaic, counts, scene, seed=0,
-                     product="singlet"):
+                     product="singlet", eye_offsets=None):
     """One noisy draw of every readout unit, as n/μ₀ (1 = the unmodulated mean).
 
     Returns
@@ -30,14 +54,12 @@ def receptor_factors(field, pose, layout, response, mosaic, counts, scene, seed=
     factor : (P,) float64, per pool (per receptor without pooling)
     mu : (N,) float64, mean counts per receptor
     """
-    inputs = pipeline.prepare(field, pose, layout, response, product)
+    inputs = pipeline.prepare(field, pose, layout, response, product, eye_offsets)
     mean = pipeline.visual_field_mean(inputs)
     if mean == 0.0:
         raise MagretinaError("the mean signal over the visual field is 0; modulation undefined")
-    e = mosaic.eye_index
-    c = np.einsum("ij,ij->i", mosaic.axes_eye, inputs.b_eye[e])
-    s = kernels.lut_lookup_numpy(inputs.lut, c)
-    dirs_world = mosaic.dirs_head @ inputs.R_head_world  # v_world = R_world_head v_head
+    s = receptor_signal(inputs, mosaic)
+    dirs_world = receptor_dirs_head(inputs, mosaic) @ inputs.R_head_world  # v_world = R_world_head v_head
     L = kernels.sample_equirect_numpy(scene.image, scene.north_col, dirs_world) @ BT709
     mu0 = counts.photons_per_integration * L
     mu = mu0 * (1.0 + counts.gain * (s / mean - 1.0))
@@ -52,7 +74,7 @@ def receptor_factors(field, pose, layout, response, mosaic, counts, scene, seed=
 
 
 def render_noisy(field, pose, layout, response, view, mosaic, counts, scene=None, seed=0,
-                 product="singlet", outside=0.25):
+                 product="singlet", outside=0.25, eye_offsets=None):
     """Composite one noisy realisation of the receptor signals.
 
     Parameters
@@ -62,6 +84,7 @@ def render_noisy(field, pose, layout, response, view, mosaic, counts, scene=None
     counts : CountModel (its ``gain`` is the modulation gain)
     scene : Scene or None (procedural dusk)
     seed : int, seed of the count draw
+    eye_offsets : mapping, optional; eye movements as in :func:`renderer.pipeline.prepare`
 
     Returns
     -------
@@ -75,6 +98,8 @@ def render_noisy(field, pose, layout, response, view, mosaic, counts, scene=None
         scene = dusk(2048)
     elif not isinstance(scene, Scene):
         scene = Scene.load(scene)
+    if eye_offsets:
+        layout = layout.moved(eye_offsets)
     base = pipeline.render(field, pose, layout, response, view, scene=scene, gain=0.0,
                            product=product, outside=outside)
     sig, _ = pipeline.render_signal(field, pose, layout, response, view, product)
@@ -83,6 +108,8 @@ def render_noisy(field, pose, layout, response, view, mosaic, counts, scene=None
                                  product)
     e = mosaic.eye_index
     R_head_world = pose.R_head_world
+    R_eye_head, _ = kernels.pack_eyes(layout)
+    dirs_head = np.einsum("nji,nj->ni", R_eye_head[e], mosaic.dirs_eye)
 
     H, W = view.shape
     d = view.directions(layout).reshape(-1, 3)
@@ -92,7 +119,7 @@ def render_noisy(field, pose, layout, response, view, mosaic, counts, scene=None
     if view.pick is not None:
         sel = np.nonzero(e == layout.eye_index(view.pick))[0]
     flat_seen = seen.reshape(-1) & ~np.isnan(d[:, 0])
-    nearest = cKDTree(mosaic.dirs_head[sel]).query(d[flat_seen])[1]
+    nearest = cKDTree(dirs_head[sel]).query(d[flat_seen])[1]
     out = base.reshape(-1, base.shape[2]).copy()
     out[flat_seen] = np.clip(out[flat_seen] * factor[mosaic.pool[sel[nearest]]][:, None], 0.0, 1.0)
     return out.reshape(H, W, -1).astype(np.float32)

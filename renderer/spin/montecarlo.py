@@ -229,7 +229,8 @@ def sample_yields(pair: RadicalPair, field_T, n_samples, *, seed=0, electron="si
         m = min(batch, n_samples - done)
         psi = _sample_states(pair, m, rng, el)
         acc = np.zeros(m)
-        chunk = 256
+        # expm_multiply returns every grid point of a chunk: keep that below ~256 MiB
+        chunk = int(max(1, min(256, 2**28 // (16 * n * m))))
         j = 0
         w_all = _simpson_weights(n_int, dt)
         pop = _singlet_pop(psi, za, zb)

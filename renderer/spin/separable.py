@@ -39,8 +39,7 @@ def applicable(pair: RadicalPair):
     return True, ""
 
 
-@njit(parallel=True, cache=True, fastmath=False)
-def _sum_kernel(sa, ea, sb, eb, k):
+def _sum_py(sa, ea, sb, eb, k):
     """Σ_{ab,cd} |δ_ab δ_cd/4 − G_ab,cd|² k²/(k² + (ω_ab + ω_cd)²), G = Σ_p sa[a,b,p] sb[c,d,p].
 
     sa : (nA, nA, 3) complex, sb : (nB, nB, 3) complex, ea/eb energies (rad/s).
@@ -67,6 +66,19 @@ def _sum_kernel(sa, ea, sb, eb, k):
             acc += sub if a == b else 2.0 * sub
         part[a] = acc
     return part.sum()
+
+
+# the same loop compiled twice: threads pay off only for large sums (their start-up and
+# barrier cost dominates small systems, badly so on a busy machine)
+_sum_serial = njit(cache=True)(_sum_py)
+_sum_parallel = njit(parallel=True, cache=True)(_sum_py)
+PARALLEL_MIN_TERMS = 1 << 20
+
+
+def _sum_kernel(sa, ea, sb, eb, k):
+    """Σ |P|² k²/(k²+ω²) over the product eigenbasis; see :func:`_sum_py`."""
+    n = ea.shape[0] ** 2 * eb.shape[0] ** 2
+    return (_sum_parallel if n >= PARALLEL_MIN_TERMS else _sum_serial)(sa, ea, sb, eb, k)
 
 
 def eigen_spin_operators(radical, fields_T):

@@ -67,7 +67,8 @@ def test_numba_kernel_equals_numpy_twin(lateral):
 def test_receptor_signals_match_the_rendering_kernels(lateral):
     """The prediction model must see the same pattern the renderer draws: per receptor,
     the Hermite value equals kernels.signal_numpy at the receptor's head direction with
-    that eye picked, up to the renderer's linear-table error h²/8·max|f''| (h = 2/4096)."""
+    that eye picked, up to the renderer's linear-table error h²/8·max|f''| (h = 2/4096).
+    (Every alignment mode: tests/predict/test_alignment_modes.py.)"""
     lay, mo = lateral
     field, pose = fixed(50, 65, 0), Pose(40.0, 10.0, 0.0)
     from renderer import pipeline
@@ -77,8 +78,8 @@ def test_receptor_signals_match_the_rendering_kernels(lateral):
     b, _ = F.field_eye_vs_heading(st.b_world_unit, st.R_eye_head, st.M_world_head0,
                                   np.radians([40.0]))
     assert np.allclose(b[0], inputs.b_eye, atol=1e-14)
-    c = np.einsum("ij,ij->i", mo.axes_eye, b[0][mo.eye_index])
-    s, _ = F.hermite_numpy(st.coef, c)
+    s = np.empty(mo.n_receptors)
+    s[st.order] = F.receptor_signals(st, np.radians([40.0]))[0][0]
     for e in range(len(lay.eyes)):
         sel = mo.eye_index == e
         ref = kernels.signal_numpy(mo.dirs_head[sel], inputs.R_eye_head, inputs.eye_params,

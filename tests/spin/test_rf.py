@@ -198,3 +198,20 @@ def test_rf_response_table_plugs_into_response_interface(tmp_path):
     assert on.sphere_lut(5, 9).shape == (5, 9)
     assert np.isfinite(on.axial_average()(np.array([0.0, 1.0]))).all()
     assert on.evaluate_dirs(np.array([[0.0, 0.0, 1.0]])).shape == (1,)
+
+
+def test_config_tables_for_study_timelines():
+    """Trade units at the edge: nT and MHz (DESIGN conventions); bad keys are named."""
+    from renderer.errors import ConfigError
+    from renderer.spin.rf import rf_from_config
+
+    rf = rf_from_config({"amplitude_nT": 480, "frequency_MHz": 1.315, "direction": [0, 0, 1]})
+    assert rf.amplitude_T == pytest.approx(480e-9) and rf.frequency_Hz == pytest.approx(1.315e6)
+    noise = rf_from_config({"rms_nT": 10, "f_min_MHz": 0.05, "f_max_MHz": 5, "seed": 3})
+    assert isinstance(noise, RFNoise) and len(noise.components()) == 16
+    with pytest.raises(ConfigError, match="rf.amplitud"):
+        rf_from_config({"amplitud_nT": 1, "frequency_MHz": 1})
+    with pytest.raises(MagretinaError, match="rf: RF field frequency_Hz"):
+        rf_from_config({"amplitude_nT": 1, "frequency_MHz": 0})
+    with pytest.raises(MagretinaError, match="rf.frequency_MHz is required"):
+        rf_from_config({"amplitude_nT": 1})

@@ -1,0 +1,55 @@
+"""The ``magretina response`` subcommand: compute, show, presets, errors → exit status 2."""
+
+import argparse
+import os
+
+import numpy as np
+import pytest
+
+from renderer.commands import response as cmd
+from renderer.response.spin_table import SpinTable
+
+
+def run(argv):
+    parser = argparse.ArgumentParser(prog="magretina")
+    sub = parser.add_subparsers(dest="command")
+    cmd.register(sub)
+    args = parser.parse_args(argv)
+    return args.func(args)
+
+
+def test_compute_and_show(tmp_path, monkeypatch, capsys):
+    monkeypatch.setenv("MAGRETINA_CACHE", str(tmp_path / "cache"))
+    out = tmp_path / "toy.npz"
+    assert run(["response", "compute", "toy-axial-n", "--field-uT", "50", "--k-s", "1e6",
+                "--lmax", "8", "--out", str(out)]) == 0
+    tab = SpinTable.load(out)
+    assert tab.lmax == 8 and abs(tab.field_T - 50e-6) < 1e-15
+    assert tab.meta["pair_name"] == "toy-axial-n"
+    # an axially symmetric tensor along z gives a response that depends on θ only
+    lut = tab.sphere_lut(19, 37)
+    assert np.max(np.ptp(lut, axis=1)) < 1e-9
+    assert run(["response", "show", str(out)]) == 0
+    text = capsys.readouterr().out
+    assert "anisotropy" in text and "fit residual" in text and "not a measurement" in text
+    assert (tmp_path / "toy.png").stat().st_size > 1000
+    # the second compute is served from the cache
+    assert run(["response", "compute", "toy-axial-n", "--field-uT", "50", "--k-s", "1e6",
+                "--lmax", "8", "--out", str(tmp_path / "again.npz")]) == 0
+    assert SpinTable.load(tmp_path / "again.npz").meta.get("from_cache") is True
+    assert run(["response", "clear-cache"]) == 0
+    assert "removed 1" in capsys.readouterr().out
+
+
+def test_cli_errors_exit_2(tmp_path, capsys):
+    from renderer.cli import main
+
+    assert main(["response", "compute", "nope", "--field-uT", "50", "--out", str(tmp_path / "x.npz")]) == 2
+    assert "unknown radical-pair preset" in capsys.readouterr().err
+    assert main(["response", "compute", "toy-axial-n", "--field-uT", "-1",
+                 "--out", str(tmp_path / "x.npz")]) == 2
+    assert main(["response", "show", str(tmp_path / "missing.npz")]) == 2
+    bad = tmp_path / "bad.npz"
+    bad.write_bytes(b"not a table")
+    assert main(["response", "show", str(bad)]) == 2
+    assert not os.path.exists(tmp_path / "x.npz")
