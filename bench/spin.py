@@ -87,16 +87,18 @@ def main(argv=None):
                                                        if i not in (0, len(pair.a.nuclei))]
     prev_f = prev_n = None
     prev_dim = 1
-    dd = rng.normal(size=(16, 3))
+    dd = rng.normal(size=(64, 3))
     dd = b * dd / np.linalg.norm(dd, axis=1, keepdims=True)
     for n in range(1, len(order) + 1):
         sub_a = [x for s, x in order[:n] if s == "a"]
         sub_b = [x for s, x in order[:n] if s == "b"]
         p = replace(pair, a=replace(pair.a, nuclei=tuple(sub_a)), b=replace(pair.b, nuclei=tuple(sub_b)))
         singlet_yield(p, dd[:1])
-        t = time.perf_counter()
-        singlet_yield(p, dd)
-        tf = (time.perf_counter() - t) / len(dd) * 1e3
+        tf = np.inf
+        for _ in range(3):  # best of 3: the machine is shared
+            t = time.perf_counter()
+            singlet_yield(p, dd)
+            tf = min(tf, (time.perf_counter() - t) / len(dd) * 1e3)
         tn = None
         if p.dim <= args.naive_max_dim:
             reps = 3 if p.dim <= 200 else 1

@@ -169,6 +169,20 @@ def _lut_lookup(lut, c):
 
 
 @njit(cache=True, inline="always")
+def _lut_row_lookup(luts, row, c):
+    """_lut_lookup on row ``row`` of a (K, L) table stack, without making a view."""
+    n1 = luts.shape[1] - 1
+    x = (c + 1.0) * 0.5 * n1
+    if x <= 0.0:
+        return luts[row, 0]
+    if x >= n1:
+        return luts[row, n1]
+    i = int(x)
+    f = x - i
+    return luts[row, i] + f * (luts[row, i + 1] - luts[row, i])
+
+
+@njit(cache=True, inline="always")
 def _cube_lookup(cube, x, y, z):
     ax = abs(x)
     ay = abs(y)
@@ -299,20 +313,27 @@ def _frame_signal(ux, uy, uz, A, B, bx, by, bz, c, p, lut, cube):
 
 
 @njit(cache=True, inline="always")
-def _signal(hx, hy, hz, R_eye_head, eye_params, b_eye, luts, cubes, pick):
-    """Signal for a head-frame unit direction; NaN if no eye sees it."""
+def _signal(vx, vy, vz, R_eye_view, eye_params, b_eye, luts, cubes, pick):
+    """Signal for a unit view direction; NaN if no eye sees it.
+
+    ``R_eye_view`` (E, 3, 3) rotates view-frame vectors straight into each eye's frame
+    (the head rotation folded in by the caller, so each direction is rotated once).
+    """
     acc = 0.0
     cnt = 0
-    E = R_eye_head.shape[0]
+    E = R_eye_view.shape[0]
     for e in range(E):
         if pick >= 0 and e != pick:
             continue
-        R = R_eye_head[e]
-        ux = R[0, 0] * hx + R[0, 1] * hy + R[0, 2] * hz
-        uy = R[1, 0] * hx + R[1, 1] * hy + R[1, 2] * hz
-        uz = R[2, 0] * hx + R[2, 1] * hy + R[2, 2] * hz
+        ux = R_eye_view[e, 0, 0] * vx + R_eye_view[e, 0, 1] * vy + R_eye_view[e, 0, 2] * vz
+        # most directions lie wholly outside an eye's widest half-width: reject them
+        # before computing the rest of the rotation
+        if ux < eye_params[e, P_COS_OUT] and eye_params[e, P_FULL] == 0.0:
+            continue
+        uy = R_eye_view[e, 1, 0] * vx + R_eye_view[e, 1, 1] * vy + R_eye_view[e, 1, 2] * vz
+        uz = R_eye_view[e, 2, 0] * vx + R_eye_view[e, 2, 1] * vy + R_eye_view[e, 2, 2] * vz
         p = eye_params[e]
-        if not _visible(ux, uy, uz, p):
+        if ux < p[P_COS_IN] and not _visible(ux, uy, uz, p):
             continue
         q = p[P_Q]
         e2 = p[P_E2]
@@ -333,11 +354,11 @@ def _signal(hx, hy, hz, R_eye_head, eye_params, b_eye, luts, cubes, pick):
         by = b_eye[e, 1]
         bz = b_eye[e, 2]
         c = A * bx + B * (uy * by + uz * bz)
-        lut = luts[int(p[P_LUT])]
+        row = int(p[P_LUT])
         if p[P_MODE] == MODE_AXIAL:
-            acc += _lut_lookup(lut, c)
+            acc += _lut_row_lookup(luts, row, c)
         else:
-            acc += _frame_signal(ux, uy, uz, A, B, bx, by, bz, c, p, lut,
+            acc += _frame_signal(ux, uy, uz, A, B, bx, by, bz, c, p, luts[row],
                                  cubes[int(p[P_CUBE])])
         cnt += 1
     if cnt == 0:
@@ -346,7 +367,7 @@ def _signal(hx, hy, hz, R_eye_head, eye_params, b_eye, luts, cubes, pick):
 
 
 @njit(parallel=True, cache=True)
-def _pattern_equirect(cos_el, sin_el, cos_az, sin_az, R_head_view, R_eye_head, eye_params,
+def _pattern_equirect(cos_el, sin_el, cos_az, sin_az, R_head_view, R_eye_view, eye_params,
                      b_eye, lut, cubes, pick, out):
     """Signal on an equirectangular grid whose directions are in the view frame.
 
@@ -354,23 +375,18 @@ def _pattern_equirect(cos_el, sin_el, cos_az, sin_az, R_head_view, R_eye_head, e
     """
     H = cos_el.shape[0]
     W = cos_az.shape[0]
-    M = R_head_view
     for i in prange(H):
         ce = cos_el[i]
         vz = -sin_el[i]
         for j in range(W):
             vx = ce * cos_az[j]
             vy = ce * sin_az[j]
-            hx = M[0, 0] * vx + M[0, 1] * vy + M[0, 2] * vz
-            hy = M[1, 0] * vx + M[1, 1] * vy + M[1, 2] * vz
-            hz = M[2, 0] * vx + M[2, 1] * vy + M[2, 2] * vz
-            out[i, j] = _signal(hx, hy, hz, R_eye_head, eye_params, b_eye, lut, cubes, pick)
+            out[i, j] = _signal(vx, vy, vz, R_eye_view, eye_params, b_eye, lut, cubes, pick)
 
 
 @njit(parallel=True, cache=True)
-def _pattern_dirs(dirs, R_head_view, R_eye_head, eye_params, b_eye, lut, cubes, pick, out):
+def _pattern_dirs(dirs, R_head_view, R_eye_view, eye_params, b_eye, lut, cubes, pick, out):
     """Signal for explicit unit directions ``dirs`` (N, 3) in the view frame -> ``out`` (N,)."""
-    M = R_head_view
     for n in prange(dirs.shape[0]):
         vx = dirs[n, 0]
         vy = dirs[n, 1]
@@ -378,10 +394,7 @@ def _pattern_dirs(dirs, R_head_view, R_eye_head, eye_params, b_eye, lut, cubes, 
         if vx != vx:
             out[n] = np.nan
             continue
-        hx = M[0, 0] * vx + M[0, 1] * vy + M[0, 2] * vz
-        hy = M[1, 0] * vx + M[1, 1] * vy + M[1, 2] * vz
-        hz = M[2, 0] * vx + M[2, 1] * vy + M[2, 2] * vz
-        out[n] = _signal(hx, hy, hz, R_eye_head, eye_params, b_eye, lut, cubes, pick)
+        out[n] = _signal(vx, vy, vz, R_eye_view, eye_params, b_eye, lut, cubes, pick)
 
 
 @njit(cache=True, inline="always")
@@ -430,7 +443,7 @@ def _modulate(px, s, inv_mean, gain, outside, out_px):
 
 
 @njit(parallel=True, cache=True)
-def _composite_world_aligned(scene, cos_el, sin_el, cos_az, sin_az, R_head_view, R_eye_head,
+def _composite_world_aligned(scene, cos_el, sin_el, cos_az, sin_az, R_head_view, R_eye_view,
                             eye_params, b_eye, lut, cubes, pick, inv_mean, gain, outside, out):
     """Composite a world panorama whose pixel grid coincides with the scene's.
 
@@ -440,23 +453,19 @@ def _composite_world_aligned(scene, cos_el, sin_el, cos_az, sin_az, R_head_view,
     """
     H = cos_el.shape[0]
     W = cos_az.shape[0]
-    M = R_head_view
     for i in prange(H):
         ce = cos_el[i]
         vz = -sin_el[i]
         for j in range(W):
             vx = ce * cos_az[j]
             vy = ce * sin_az[j]
-            hx = M[0, 0] * vx + M[0, 1] * vy + M[0, 2] * vz
-            hy = M[1, 0] * vx + M[1, 1] * vy + M[1, 2] * vz
-            hz = M[2, 0] * vx + M[2, 1] * vy + M[2, 2] * vz
-            s = _signal(hx, hy, hz, R_eye_head, eye_params, b_eye, lut, cubes, pick)
+            s = _signal(vx, vy, vz, R_eye_view, eye_params, b_eye, lut, cubes, pick)
             _modulate(scene[i, j], s, inv_mean, gain, outside, out[i, j])
 
 
 @njit(parallel=True, cache=True)
 def _composite_resampled(scene, north_col, cos_el, sin_el, cos_az, sin_az, R_head_view,
-                        R_world_view, R_eye_head, eye_params, b_eye, lut, cubes, pick, inv_mean,
+                        R_world_view, R_eye_view, eye_params, b_eye, lut, cubes, pick, inv_mean,
                          gain, outside, out):
     """Composite an equirectangular view (any frame) over a resampled scene.
 
@@ -469,7 +478,6 @@ def _composite_resampled(scene, north_col, cos_el, sin_el, cos_az, sin_az, R_hea
     SH = scene.shape[0]
     SW = scene.shape[1]
     C = scene.shape[2]
-    M = R_head_view
     Q = R_world_view
     for i in prange(H):
         px = np.empty(C, dtype=np.float32)
@@ -486,15 +494,12 @@ def _composite_resampled(scene, north_col, cos_el, sin_el, cos_az, sin_az, R_hea
             x = north_col + az * (SW / (2.0 * math.pi))
             y = (0.5 * math.pi - el) * (SH / math.pi)
             _bilinear(scene, x, y, px)
-            hx = M[0, 0] * vx + M[0, 1] * vy + M[0, 2] * vz
-            hy = M[1, 0] * vx + M[1, 1] * vy + M[1, 2] * vz
-            hz = M[2, 0] * vx + M[2, 1] * vy + M[2, 2] * vz
-            s = _signal(hx, hy, hz, R_eye_head, eye_params, b_eye, lut, cubes, pick)
+            s = _signal(vx, vy, vz, R_eye_view, eye_params, b_eye, lut, cubes, pick)
             _modulate(px, s, inv_mean, gain, outside, out[i, j])
 
 
 @njit(parallel=True, cache=True)
-def _composite_dirs(scene, north_col, dirs, R_head_view, R_world_view, R_eye_head, eye_params,
+def _composite_dirs(scene, north_col, dirs, R_head_view, R_world_view, R_eye_view, eye_params,
                    b_eye, lut, cubes, pick, inv_mean, gain, outside, out):
     """Composite for explicit view directions ``dirs`` (N, 3); ``out`` (N, C) float32.
 
@@ -503,7 +508,6 @@ def _composite_dirs(scene, north_col, dirs, R_head_view, R_world_view, R_eye_hea
     SH = scene.shape[0]
     SW = scene.shape[1]
     C = scene.shape[2]
-    M = R_head_view
     Q = R_world_view
     for n in prange(dirs.shape[0]):
         px = np.empty(C, dtype=np.float32)
@@ -521,16 +525,20 @@ def _composite_dirs(scene, north_col, dirs, R_head_view, R_world_view, R_eye_hea
         el = math.asin(min(1.0, max(-1.0, -wz)))
         _bilinear(scene, north_col + az * (SW / (2.0 * math.pi)), (0.5 * math.pi - el) * (SH / math.pi),
                   px)
-        hx = M[0, 0] * vx + M[0, 1] * vy + M[0, 2] * vz
-        hy = M[1, 0] * vx + M[1, 1] * vy + M[1, 2] * vz
-        hz = M[2, 0] * vx + M[2, 1] * vy + M[2, 2] * vz
-        s = _signal(hx, hy, hz, R_eye_head, eye_params, b_eye, lut, cubes, pick)
+        s = _signal(vx, vy, vz, R_eye_view, eye_params, b_eye, lut, cubes, pick)
         _modulate(px, s, inv_mean, gain, outside, out[n])
 
 
 # ---------------------------------------------------------------------------
 # public entry points: normalise the tables, then call the compiled kernels
 # ---------------------------------------------------------------------------
+
+def _fold(R_eye_head, R_head_view):
+    """R_eye_view = R_eye_head @ R_head_view per eye, (E, 3, 3): the kernels rotate each
+    view direction once, straight into every eye's frame."""
+    return np.ascontiguousarray(np.einsum("eij,jk->eik", np.asarray(R_eye_head, np.float64),
+                                          np.asarray(R_head_view, np.float64)))
+
 
 def _tables(eye_params, lut, cubes):
     lut = np.asarray(lut, dtype=np.float64)
@@ -561,14 +569,16 @@ def pattern_equirect(cos_el, sin_el, cos_az, sin_az, R_head_view, R_eye_head, ey
     ``out`` (H, W) float64 is filled; NaN where no eye sees.
     """
     lut, cubes = _tables(eye_params, lut, cubes)
-    _pattern_equirect(cos_el, sin_el, cos_az, sin_az, R_head_view, R_eye_head, eye_params, b_eye,
+    _pattern_equirect(cos_el, sin_el, cos_az, sin_az, R_head_view, _fold(R_eye_head, R_head_view),
+                      eye_params, b_eye,
                       lut, cubes, pick, out)
 
 
 def pattern_dirs(dirs, R_head_view, R_eye_head, eye_params, b_eye, lut, pick, out, cubes=None):
     """Signal for explicit unit directions ``dirs`` (N, 3) in the view frame -> ``out`` (N,)."""
     lut, cubes = _tables(eye_params, lut, cubes)
-    _pattern_dirs(dirs, R_head_view, R_eye_head, eye_params, b_eye, lut, cubes, pick, out)
+    _pattern_dirs(dirs, R_head_view, _fold(R_eye_head, R_head_view), eye_params, b_eye, lut, cubes,
+                  pick, out)
 
 
 def composite_world_aligned(scene, cos_el, sin_el, cos_az, sin_az, R_head_view, R_eye_head,
@@ -581,7 +591,8 @@ def composite_world_aligned(scene, cos_el, sin_el, cos_az, sin_az, R_head_view, 
     unseen pixels are multiplied by ``outside``.
     """
     lut, cubes = _tables(eye_params, lut, cubes)
-    _composite_world_aligned(scene, cos_el, sin_el, cos_az, sin_az, R_head_view, R_eye_head,
+    _composite_world_aligned(scene, cos_el, sin_el, cos_az, sin_az, R_head_view,
+                             _fold(R_eye_head, R_head_view),
                              eye_params, b_eye, lut, cubes, pick, inv_mean, gain, outside, out)
 
 
@@ -596,7 +607,8 @@ def composite_resampled(scene, north_col, cos_el, sin_el, cos_az, sin_az, R_head
     """
     lut, cubes = _tables(eye_params, lut, cubes)
     _composite_resampled(scene, north_col, cos_el, sin_el, cos_az, sin_az, R_head_view,
-                         R_world_view, R_eye_head, eye_params, b_eye, lut, cubes, pick, inv_mean,
+                         R_world_view, _fold(R_eye_head, R_head_view), eye_params, b_eye, lut, cubes,
+                         pick, inv_mean,
                          gain, outside, out)
 
 
@@ -607,7 +619,8 @@ def composite_dirs(scene, north_col, dirs, R_head_view, R_world_view, R_eye_head
     Rows of ``dirs`` that are NaN (outside a view's footprint) give 0.
     """
     lut, cubes = _tables(eye_params, lut, cubes)
-    _composite_dirs(scene, north_col, dirs, R_head_view, R_world_view, R_eye_head, eye_params,
+    _composite_dirs(scene, north_col, dirs, R_head_view, R_world_view,
+                    _fold(R_eye_head, R_head_view), eye_params,
                     b_eye, lut, cubes, pick, inv_mean, gain, outside, out)
 
 

@@ -27,6 +27,7 @@ import scipy.sparse as sp
 from scipy.linalg import expm
 from scipy.sparse.linalg import expm_multiply
 from scipy.special import comb
+from threadpoolctl import threadpool_limits
 
 from ..errors import MagretinaError
 from .hamiltonian import GAMMA_E, RAD_S_PER_MT
@@ -206,6 +207,13 @@ def sample_yields(pair: RadicalPair, field_T, n_samples, *, seed=0, electron="si
     -------
     ndarray (n_samples,)
     """
+    # many small products: threaded BLAS only adds contention here
+    with threadpool_limits(1, user_api="blas"):
+        return _sample_yields(pair, field_T, int(n_samples), seed, electron, tail_tol, omega_dt,
+                              progress)
+
+
+def _sample_yields(pair, field_T, n_samples, seed, electron, tail_tol, omega_dt, progress):
     rng = np.random.default_rng(seed)
     za, zb = pair.a.nuclear_multiplicity, pair.b.nuclear_multiplicity
     el = _S if electron == "singlet" else _TRIPLETS[int(electron)]

@@ -239,7 +239,7 @@ def default_run_dir() -> Path:
     return Path(root) / "spin-runs"
 
 
-def run_directions(fn, fields_T, key, *, run_dir=None, progress=None):
+def run_directions(fn, fields_T, key, *, run_dir=None, progress=None, n_workers=1):
     """Evaluate ``fn(field_T (3,)) -> float`` per direction, caching each result.
 
     Parameters
@@ -253,6 +253,9 @@ def run_directions(fn, fields_T, key, *, run_dir=None, progress=None):
         Default :func:`default_run_dir`.
     progress : callable, optional
         Called with the number of directions finished (cached ones first).
+    n_workers : int
+        Threads evaluating directions at once (``fn`` must be thread-safe and release
+        the GIL in its heavy parts, as NumPy's LAPACK calls do).
 
     Returns
     -------
@@ -280,18 +283,37 @@ def run_directions(fn, fields_T, key, *, run_dir=None, progress=None):
         todo.append(i)
     if progress is not None and len(b) - len(todo):
         progress(len(b) - len(todo))
-    for i in todo:
+    def one(i):
         v = float(fn(b[i]))
         atomic_write_text(folder / f"{i:06d}.json",
                           json.dumps({"field_T": b[i].tolist(), "value": v}))
-        out[i] = v
-        if progress is not None:
-            progress(1)
+        return i, v
+
+    if int(n_workers) <= 1:
+        for i, v in map(one, todo):
+            out[i] = v
+            if progress is not None:
+                progress(1)
+        return out
+    from concurrent.futures import ThreadPoolExecutor
+
+    from threadpoolctl import threadpool_limits
+
+    # one BLAS thread per worker for the whole pool (nested limits inside fn then agree)
+    with threadpool_limits(1, user_api="blas"):
+        pool = ThreadPoolExecutor(max_workers=int(n_workers))
+        try:
+            for i, v in pool.map(one, todo):
+                out[i] = v
+                if progress is not None:
+                    progress(1)
+        finally:
+            pool.shutdown(wait=True, cancel_futures=True)
     return out
 
 
 def compute_table(fn, field_T, params, *, lmax=16, order=None, run_dir=None, progress=None,
-                  meta=None, inversion_symmetric=True):
+                  meta=None, inversion_symmetric=True, n_workers=1):
     """A full-sphere SpinTable from a per-direction yield function, resumably.
 
     Parameters
@@ -306,6 +328,8 @@ def compute_table(fn, field_T, params, *, lmax=16, order=None, run_dir=None, pro
         Harmonic degree and Lebedev order (as in ``compute_spin_table``).
     inversion_symmetric : bool
         Solve only one node of each antipodal pair (Φ(B) = Φ(−B)).
+    n_workers : int
+        Directions evaluated at once (threads); see :func:`run_directions`.
 
     Returns
     -------
@@ -328,7 +352,8 @@ def compute_table(fn, field_T, params, *, lmax=16, order=None, run_dir=None, pro
     full = {**params, "field_T": b, "lmax": lmax, "lebedev_order": order,
             "inversion_symmetric": bool(inversion_symmetric)}
     key = run_key(full)
-    vals = run_directions(fn, b * nodes[keep], key, run_dir=run_dir, progress=progress)
+    vals = run_directions(fn, b * nodes[keep], key, run_dir=run_dir, progress=progress,
+                          n_workers=n_workers)
     values = np.empty(len(nodes))
     values[keep] = vals
     values[partner] = vals

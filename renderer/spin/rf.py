@@ -33,6 +33,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from threadpoolctl import threadpool_limits
+
 from ..errors import MagretinaError
 from .hamiltonian import pair_operators, singlet_projector
 from .system import RadicalPair
@@ -281,6 +283,12 @@ def floquet_singlet_yield(pair: RadicalPair, field_T, rf: RFField, *, n_harmonic
     rf = check_single_frequency(rf, "floquet")
     b0 = np.asarray(field_T, dtype=np.float64).reshape(3)
     rf.check_against(b0)
+    # small dense eigenproblems: threaded BLAS only adds contention
+    with threadpool_limits(1, user_api="blas"):
+        return _floquet_auto(pair, b0, rf, n_harmonics, tol, max_harmonics, return_info)
+
+
+def _floquet_auto(pair, b0, rf, n_harmonics, tol, max_harmonics, return_info):
     ops = pair_operators(pair)
     h0 = ops.hamiltonian(b0)
     v = np.tensordot(rf.vector_T, ops.zeeman, axes=([0], [0]))

@@ -23,10 +23,19 @@ from .sequences import SequenceContext, build_series
 
 
 def build_layout(cfg, base_dir):
+    """The shot's layout: the preset or file, then ``alignment`` for every eye, then the
+    per-eye overrides of ``[layout.eyes.NAME]`` (an eye's own alignment wins), then the
+    eye movements of ``[layout.eye_offsets.NAME]`` (added to the placement angles, see
+    :meth:`renderer.eye.Layout.moved`).  Errors name the key."""
     from ..eye import load_layout
 
     src = resolve_path(base_dir, cfg["file"]) if cfg.get("file") else cfg.get("preset", "lateral")
     layout = load_layout(src)
+    if cfg.get("alignment") is not None:
+        try:
+            layout = layout.with_alignment(cfg["alignment"])
+        except MagretinaError as exc:
+            raise MagretinaError(f"layout.alignment: {exc}") from None
     eyes = list(layout.eyes)
     names = [e.name for e in eyes]
     for name, kw in cfg.get("eyes", {}).items():
@@ -34,11 +43,25 @@ def build_layout(cfg, base_dir):
             raise MagretinaError(f"layout.eyes.{name}: layout {layout.name!r} has no eye {name!r}; "
                                  f"eyes: {', '.join(names)}")
         i = names.index(name)
-        eyes[i] = dataclasses.replace(eyes[i], **kw)
-    extra = {k: v for k, v in cfg.items() if k not in ("preset", "file", "eyes")}
+        try:
+            eyes[i] = dataclasses.replace(eyes[i], **kw)
+        except MagretinaError as exc:
+            raise MagretinaError(f"layout.eyes.{name}: {exc}") from None
+    extra = {k: v for k, v in cfg.items()
+             if k not in ("preset", "file", "eyes", "alignment", "eye_offsets")}
     layout = layout.with_eyes(eyes)
     if extra:
         layout = dataclasses.replace(layout, **extra)
+    for name, off in cfg.get("eye_offsets", {}).items():
+        if name not in names:
+            raise MagretinaError(f"layout.eye_offsets.{name}: layout {layout.name!r} has no eye "
+                                 f"{name!r}; eyes: {', '.join(names)}")
+        angles = (off.get("azimuth_deg", 0.0), off.get("elevation_deg", 0.0),
+                  off.get("torsion_deg", 0.0))
+        try:
+            layout = layout.moved({name: angles})
+        except MagretinaError as exc:
+            raise MagretinaError(f"layout.eye_offsets.{name} = {dict(off)}: {exc}") from None
     return layout
 
 

@@ -8,8 +8,11 @@ A study file has these tables (each documented in the example written by
     [field]      model = igrf | dipole | fixed, date; total_uT, inclination_deg,
                  declination_deg for a fixed field
     [pose]       yaw_deg, pitch_deg, roll_deg            (the base head pose)
-    [layout]     preset = "lateral" or file = "my_layout.toml"; [layout.eyes.NAME]
-                 overrides any field of the Eye class; other keys any Layout field
+    [layout]     preset = "lateral" or file = "my_layout.toml"; alignment (a hypothesis
+                 for every eye); [layout.eyes.NAME] overrides any field of the Eye
+                 class (its alignment wins); [layout.eye_offsets.NAME] eye movement
+                 (azimuth_deg, elevation_deg, torsion_deg added to the eye's
+                 placement); other keys any Layout field
     [response]   kind = a key of renderer.response.REGISTRY, product, csv, and the
                  constructor keywords of that class; [responses.NAME] alternatives
                  that a timeline step can switch to
@@ -73,6 +76,13 @@ POSE = {
     "yaw_deg": Key(float, 0.0, lo=-360.0, hi=360.0, unit="degrees"),
     "pitch_deg": Key(float, 0.0, lo=-90.0, hi=90.0, unit="degrees"),
     "roll_deg": Key(float, 0.0, lo=-180.0, hi=180.0, unit="degrees"),
+}
+EYE_OFFSET = {
+    "azimuth_deg": Key(float, 0.0, lo=-180.0, hi=180.0, unit="degrees (added to the eye's azimuth)"),
+    "elevation_deg": Key(float, 0.0, lo=-180.0, hi=180.0,
+                         unit="degrees (added to the eye's elevation; the sum must stay in "
+                              "[-90, 90])"),
+    "torsion_deg": Key(float, 0.0, lo=-180.0, hi=180.0, unit="degrees (added to the eye's torsion)"),
 }
 SCENE = {
     "kind": Key(str, "dusk", choices=SCENE_KINDS),
@@ -305,6 +315,9 @@ def _check_layout(tbl, base_dir, problems):
             problems.append(f"layout.preset = {preset!r}: allowed {', '.join(map(repr, names))} "
                             f"(or layout.file = a layout TOML)")
         out["preset"] = preset
+    if "alignment" in tbl:
+        if _check_alignment("layout.alignment", tbl["alignment"], problems):
+            out["alignment"] = tbl["alignment"]
     eyes = tbl.get("eyes", {})
     out["eyes"] = {}
     if not isinstance(eyes, dict):
@@ -314,12 +327,47 @@ def _check_layout(tbl, base_dir, problems):
             if not isinstance(etbl, dict):
                 problems.append(f"layout.eyes.{name}: must be a table of Eye fields")
                 continue
-            out["eyes"][name] = check_passthrough(f"layout.eyes.{name}", etbl, Eye, problems,
-                                                  exclude=("name",), require=False)
-    extra = {k: v for k, v in tbl.items() if k not in ("preset", "file", "eyes")}
+            kw = check_passthrough(f"layout.eyes.{name}", etbl, Eye, problems,
+                                   exclude=("name",), require=False)
+            if "alignment" in kw and not _check_alignment(f"layout.eyes.{name}.alignment",
+                                                          kw["alignment"], problems):
+                kw.pop("alignment")
+            out["eyes"][name] = kw
+    offsets = tbl.get("eye_offsets", {})
+    out["eye_offsets"] = {}
+    if not isinstance(offsets, dict):
+        problems.append("layout.eye_offsets: must be a table of [layout.eye_offsets.NAME] tables "
+                        "(NAME an eye of the layout)")
+    else:
+        for name, otbl in offsets.items():
+            out["eye_offsets"][name] = check_table(f"layout.eye_offsets.{name}", otbl, EYE_OFFSET,
+                                                   problems)
+    extra = {k: v for k, v in tbl.items()
+             if k not in ("preset", "file", "eyes", "alignment", "eye_offsets")}
     out.update(check_passthrough("layout", extra, Layout, problems, exclude=("eyes",),
                                  require=False))
     return out
+
+
+def _check_alignment(path, spec, problems) -> bool:
+    """An alignment hypothesis: a mode name or a table {mode = ..., its keys}, checked
+    by the hypothesis class itself (so every registered mode and its ranges apply)."""
+    from ..eye.alignment import parse_alignment
+
+    if not isinstance(spec, (str, dict)):
+        problems.append(f"{path} = {spec!r}: must be a mode name or a table "
+                        f"{{mode = ..., ...}}")
+        return False
+    try:
+        parse_alignment(spec, path)
+    except ConfigError as exc:
+        problems.extend(exc.problems)
+        return False
+    except MagretinaError as exc:
+        msg = str(exc)
+        problems.append(msg if msg.startswith(path) else f"{path}: {msg}")
+        return False
+    return True
 
 
 def check_response(path, tbl, base_dir, problems):
