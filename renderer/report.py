@@ -129,8 +129,10 @@ def _frames(study, limit):
     out = []
     for idx in sorted(study["entries"]):
         e = study["entries"][idx]
-        for rec in sorted(e.get("files", []), key=lambda r: (str(r.get("view")), r.get("frame", -1),
-                                                              r["path"])):
+        # previews and videos carry frame = None: sort them after the frames
+        for rec in sorted(e.get("files", []),
+                          key=lambda r: (str(r.get("view")), r.get("frame") is None,
+                                         r.get("frame") or 0, r["path"])):
             p = rec.get("path", "")
             if rec.get("encoding", "png8") != "png8" or not p.endswith(".png"):
                 continue

@@ -50,7 +50,7 @@ step_deg = 120.0
 fps = 1.0
 
 [output]
-preview = "none"
+preview = "gif"                  # previews carry no frame number: the report must cope
 netcdf = true
 
 [metrics]
