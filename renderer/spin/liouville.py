@@ -60,9 +60,10 @@ def yields(pair: RadicalPair, fields_T, progress=None):
         y, scale, info = ztrsyl(t, t, c, trana="N", tranb="C", isgn=1)
         if info != 0 or not np.all(np.isfinite(y)):
             raise MagretinaError(
-                f"radical pair: the yield integral diverges at field {f.tolist()} T (a populated "
-                f"state never recombines; k_s = {pair.k_s:g}, k_t = {pair.k_t:g} s^-1). "
-                f"Use k_t > 0.")
+                f"radical pair: the Liouville resolvent is singular at field {f.tolist()} T: "
+                f"some spin states never recombine (k_s = {pair.k_s:g}, k_t = {pair.k_t:g} "
+                f"s^-1). Use k_t > 0 (a small value such as 1e-6 * k_s changes the yield "
+                f"negligibly).")
         y = y / scale
         ps_schur = zh @ p_s @ z
         tr_ps_x = np.einsum("ij,ji->", ps_schur, y).real

@@ -324,6 +324,26 @@ def _floquet_auto(pair, b0, rf, n_harmonics, tol, max_harmonics, return_info):
     return (phi, {"n_harmonics": n, "change": change}) if return_info else phi
 
 
+def rf_singlet_yield(pair: RadicalPair, field_T, rf, *, method="auto", **kwargs):
+    """Phase-averaged RF singlet yield, choosing the Floquet variant.
+
+    ``method``: ``"floquet"`` (whole pair space, any rates and couplings),
+    ``"floquet-separable"`` (per radical; equal rates, uncoupled radicals; error bound
+    ``tol``), or ``"auto"``: the pair-space form up to pair dimension 256 or when the
+    radicals are coupled or rates differ, the per-radical form otherwise.
+    """
+    if method == "auto":
+        sep = pair.equal_rates and not pair.coupled
+        method = "floquet-separable" if (sep and pair.dim > 256) else "floquet"
+    if method == "floquet":
+        kwargs.pop("tol", None)
+        return floquet_singlet_yield(pair, field_T, rf, **kwargs)
+    if method == "floquet-separable":
+        return floquet_separable_yield(pair, field_T, rf, **kwargs)
+    raise MagretinaError(f"RF method = {method!r}; allowed 'auto', 'floquet', 'floquet-separable' "
+                         f"(several frequencies: propagated_singlet_yield / noise_singlet_yield)")
+
+
 # --------------------------------------------------------------------------------------
 # direct propagation (several frequencies, fixed phases)
 # --------------------------------------------------------------------------------------
@@ -468,7 +488,7 @@ def rf_yield_relative(pair: RadicalPair, field_T, amplitude_T, frequency_Hz, ang
     out = np.empty(len(b))
     n_eff = 1 if angle_deg % 180 == 0 else int(n_psi)
     for i, bi in enumerate(b):
-        vals = [floquet_singlet_yield(pair, bi, RFField(amplitude_T, frequency_Hz, d), **kwargs)
+        vals = [rf_singlet_yield(pair, bi, RFField(amplitude_T, frequency_Hz, d), **kwargs)
                 for d in rf_directions(bi, angle_deg, n_eff)]
         out[i] = float(np.mean(vals))
     return float(out[0]) if single else out
@@ -529,7 +549,7 @@ def resonance_spectrum(pair: RadicalPair, field_T, amplitude_T, frequencies_Hz, 
     f = np.asarray(frequencies_Hz, dtype=np.float64).reshape(-1)
     vals = np.empty(len(f))
     for i, fi in enumerate(f):
-        vals[i] = floquet_singlet_yield(pair, b0, RFField(amplitude_T, fi, rf_direction), **kwargs)
+        vals[i] = rf_singlet_yield(pair, b0, RFField(amplitude_T, fi, rf_direction), **kwargs)
         if progress is not None:
             progress(1)
     static = float(singlet_yield(pair, b0))
@@ -697,7 +717,8 @@ def floquet_separable_yield(pair: RadicalPair, field_T, rf: RFField, *, n_harmon
                 extra += dropped[("a", j)] * float(sb.sum()) + dropped[("b", -j)] * float(sa.sum()) \
                     + dropped[("a", j)] * dropped[("b", -j)]
             c4 = BINNING_BOUND_CONST * 4.0 / 9.0
-            h = k * (tol / (c4 * max(tot, 1e-300))) ** 0.25
+            budget = tol - extra if extra < 0.5 * tol else 0.5 * tol
+            h = k * (budget / (c4 * max(tot, 1e-300))) ** 0.25
             span = max(float(np.max(np.abs(v[0]))) if v[0].size else 0.0 for v in lines.values())
             lo = int(np.floor(-span / h)) - 2
             n = 2 * (-lo) + 2

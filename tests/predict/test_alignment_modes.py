@@ -16,7 +16,7 @@ from renderer.pose import Pose
 from renderer.predict import CountModel, GaussianNoise, fisher_information, make_setup
 from renderer.predict import fisher as F
 from renderer.response import Legendre
-from renderer.response.harmonic import SphericalHarmonic, real_sph_harm
+from renderer.response.harmonic import SphericalHarmonic
 
 from .conftest import sphere_eye
 

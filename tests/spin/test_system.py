@@ -36,8 +36,10 @@ def test_bad_spin_values():
 
 def test_radical_hamiltonian_matches_qutip_tensor(rng):
     """H of a radical with two nuclei against the same Hamiltonian assembled with QuTiP
-    tensor products (electron first, nuclei in list order), γ_e from scipy.constants."""
-    n1, n2 = Nucleus(1.0, random_tensor(rng)), Nucleus(0.5, random_tensor(rng))
+    tensor products (electron first, nuclei in list order), γ_e and γ_p from
+    scipy.constants (CODATA); the proton carries a nuclear Zeeman term."""
+    gamma_h = sc.physical_constants["proton gyromag. ratio"][0]
+    n1, n2 = Nucleus(1.0, random_tensor(rng)), Nucleus(0.5, random_tensor(rng), gamma_rad_s_T=gamma_h)
     rad = Radical([n1, n2], g=2.0040)
     b = np.array([20e-6, -35e-6, 41e-6])
     g_e = abs(sc.physical_constants["electron g factor"][0])
@@ -49,6 +51,7 @@ def test_radical_hamiltonian_matches_qutip_tensor(rng):
     h = sum(2.0040 / g_e * gam * b[i] * s[i] for i in range(3))
     for nuc, ii in ((n1, i1), (n2, i2)):
         h += sum(gam * 1e-3 * nuc.hyperfine_mT[i, j] * s[i] * ii[j] for i in range(3) for j in range(3))
+    h += sum(-gamma_h * b[i] * i2[i] for i in range(3))  # nuclear Zeeman −γ_n B·I, asked for on n2
     np.testing.assert_allclose(radical_hamiltonian(rad, b), h.full(), atol=1e-6 * np.abs(h.full()).max())
     np.testing.assert_allclose(electron_operators(rad)[2], s[2].full(), atol=0)
     batch = radical_hamiltonian(rad, np.stack([b, -b]))
@@ -124,6 +127,11 @@ def test_validation_messages(rng):
         RadicalPair(Radical(), Radical(), 1e6, 1e6, dipolar_mT=[[0, 1, 0], [0, 0, 0], [0, 0, 0]])
     with pytest.raises(MagretinaError, match="g"):
         Radical(g=-2)
+    from renderer.spin import yields
+
+    never = RadicalPair(Radical([Nucleus.isotropic(0.5, 0.5)]), Radical(), k_s=1e6, k_t=0)
+    with pytest.raises(MagretinaError, match="never recombine"):
+        yields(never, [0, 0, 5e-5], method="liouville")
 
 
 def test_memory_estimate_before_allocation():
