@@ -205,9 +205,9 @@ def cmd_rf_table(args) -> int:
     print(pl.summary())
 
     def fn(bi):
-        return rf_yield_relative(pair, bi, amp, f, ang)
+        return rf_yield_relative(pair, bi, amp, f, ang, method=pl.method)
 
-    params = {"pair": pair.describe(), "method": "floquet", "rf_amplitude_T": amp,
+    params = {"pair": pair.describe(), "method": pl.method, "rf_amplitude_T": amp,
               "rf_frequency_Hz": f, "rf_angle_deg": ang, "rf_azimuths": n_psi}
     with _bar(n_solve, "RF table") as bar:
         table = compute_table(fn, b, params, lmax=lmax, run_dir=args.run_dir, progress=bar.update,

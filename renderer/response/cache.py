@@ -11,9 +11,9 @@ JSON metadata string; it does not compute anything.
 from __future__ import annotations
 
 import hashlib
+import io
 import json
 import os
-import tempfile
 from pathlib import Path
 
 import numpy as np
@@ -42,25 +42,15 @@ def _json_default(o):
 def save_npz_atomic(path, arrays: dict, meta: dict) -> Path:
     """Write ``arrays`` plus ``meta`` (JSON string under key 'meta_json') atomically.
 
-    The file appears under ``path`` only when complete (temporary file in the same
-    directory, then ``os.replace``).
+    The file appears under ``path`` only when complete (see
+    :func:`renderer.io.atomic_write_bytes`).
     """
-    path = Path(path)
-    path.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=path.parent)
-    try:
-        with os.fdopen(fd, "wb") as fh:
-            np.savez(fh, meta_json=np.array(json.dumps(meta, default=_json_default)), **arrays)
-            fh.flush()
-            os.fsync(fh.fileno())
-        os.replace(tmp, path)
-    except BaseException:
-        try:
-            os.unlink(tmp)
-        except FileNotFoundError:
-            pass
-        raise
-    return path
+    from ..io import atomic_write_bytes
+
+    buf = io.BytesIO()
+    np.savez(buf, meta_json=np.array(json.dumps(meta, default=_json_default)), **arrays)
+    atomic_write_bytes(path, buf.getvalue())
+    return Path(path)
 
 
 def load_npz(path):

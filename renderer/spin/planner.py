@@ -37,6 +37,8 @@ DIRECT_TERMS_PER_S = 9e8
 LINE_S = 2.5e-8
 #: seconds per complex multiply-add in sparse/dense propagation
 PROP_S_PER_OP = 2e-9
+#: seconds per complex multiply-add in dense matrix products (BLAS, one thread)
+MATMUL_S_PER_OP = 5e-10
 
 
 @dataclass(frozen=True)
@@ -119,7 +121,7 @@ def spectral_span_estimate(pair: RadicalPair, field_T: float) -> float:
     return max(spans)
 
 
-def estimate(pair: RadicalPair, field_T=50e-6, *, tol=1e-6, n_samples=256, rf_harmonics=4):
+def estimate(pair: RadicalPair, field_T=50e-6, *, tol=1e-6, n_samples=256, rf_harmonics=2):
     """Per-direction cost of every method for this pair (nothing is allocated).
 
     Returns
@@ -158,9 +160,21 @@ def estimate(pair: RadicalPair, field_T=50e-6, *, tol=1e-6, n_samples=256, rf_ha
     out.append(MethodEstimate("montecarlo", n_samples * steps * per_step * PROP_S_PER_OP,
                               int(16 * (nnz * 2 + 8 * n * min(n_samples, 64))),
                               f"statistical ({n_samples} samples)", True))
-    nf = n * (2 * rf_harmonics + 1)
+    nb = 2 * rf_harmonics + 1
+    nf = n * nb
     out.append(MethodEstimate("floquet", 2 * EIGH_S_PER_N3 * nf**3 + 4 * EIGH_S_PER_N3 * n * nf**2,
                               16 * 5 * nf * nf, "exact (RF on, per RF azimuth)", True))
+    # per radical: two harmonic cut-offs, each an eigh of nb·d plus (2nb−1)·3 products
+    # Σ_n U_n† S U_n+j of cost nb·(nb d)²·d, and 9 line weights per (α, β)
+    t_fs = 0.0
+    mem_fs = 0
+    for d in (da, db):
+        f = nb * d
+        t_fs += 2 * (EIGH_S_PER_N3 * f**3 + MATMUL_S_PER_OP * (2 * nb - 1) * 3 * nb * f * f * d
+                     + LINE_S * (2 * nb - 1) * 9 * f * f)
+        mem_fs += 16 * (3 * (2 * nb - 1) + 12) * f * f
+    out.append(MethodEstimate("floquet-separable", t_fs, int(mem_fs),
+                              f"bounded error <= {tol:g} (RF on, per RF azimuth)", sep_ok, why_sep))
     return out
 
 
@@ -189,7 +203,7 @@ def plan(pair: RadicalPair, n_directions=1, *, field_T=50e-6, method="auto", tol
     ests = estimate(pair, field_T, tol=tol, n_samples=n_samples)
     by = {e.method: e for e in ests}
     if rf:
-        cands = ["floquet"]
+        cands = ["floquet", "floquet-separable"]
     elif method == "auto":
         cands = ["separable", "spectral", "eigenbasis", "liouville", "montecarlo"]
     else:
@@ -199,7 +213,8 @@ def plan(pair: RadicalPair, n_directions=1, *, field_T=50e-6, method="auto", tol
         cands = [method]
     ok = [by[c] for c in cands if by[c].applicable and by[c].memory_bytes <= lim]
     if not ok:
-        e = by[cands[0]]
+        appl = [by[c] for c in cands if by[c].applicable] or [by[cands[0]]]
+        e = min(appl, key=lambda x: x.memory_bytes)
         raise MagretinaError(
             f"no method fits: '{e.method}' would need about {_fmt_b(e.memory_bytes)} "
             f"(limit {_fmt_b(lim)}){'; ' + e.why_not if e.why_not else ''}. Hilbert dimension "
@@ -216,8 +231,12 @@ def plan(pair: RadicalPair, n_directions=1, *, field_T=50e-6, method="auto", tol
             choice, why = best_exact, "cheapest exact method that fits in memory"
         else:
             choice, why = by["montecarlo"], "only the statistically exact Monte Carlo fits in memory"
+    elif rf:
+        choice = min(ok, key=lambda e: e.seconds_per_direction)
+        why = ("RF on: Floquet in the pair space (exact)" if choice.method == "floquet" else
+               f"RF on: per-radical Floquet spectra, binned (error <= {tol:g})")
     else:
-        choice, why = ok[0], "requested" if method != "auto" else "RF on: Floquet (exact)"
+        choice, why = ok[0], "requested"
     return Plan(choice.method, int(n_directions), choice.seconds_per_direction,
                 choice.memory_bytes, why, tuple(ests))
 

@@ -229,6 +229,6 @@ def test_per_radical_floquet_matches_pair_floquet():
     for rf in (RFField(0.0, 1.4e6, (0, 1, 0)), RFField(5e-6, 1.2e6, (1, 1, 0))):
         ref = floquet_singlet_yield(pair, b0, rf)
         got, info = floquet_separable_yield(pair, b0, rf, tol=1e-6, return_info=True)
-        assert info["bound"] <= 1e-6 and abs(got - ref) <= info["bound"]
+        assert info["bound"] <= 1e-6 * (1 + 1e-9) and abs(got - ref) <= info["bound"]
     with pytest.raises(MagretinaError, match="equal rates"):
         floquet_separable_yield(_n5_bare(k=1e6, k_t=2e6), b0, RFField(1e-7, 1e6))
