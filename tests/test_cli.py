@@ -114,3 +114,34 @@ def test_python_dash_m():
     r = subprocess.run([sys.executable, "-m", "renderer", "--help"], capture_output=True, text=True,
                        cwd=ROOT)
     assert r.returncode == 0 and "demo" in r.stdout
+
+
+def test_render_with_spin_table_and_alignment(tmp_path, capsys):
+    """A spin table from 'response compute' and an alignment hypothesis reach the renderer:
+    the frame equals the library's render of the same configuration."""
+    import renderer
+    from renderer.eye import load_layout
+    from renderer.eye.alignment import Tilt
+    from renderer.field import igrf
+    from renderer.io import read_image_linear
+    from renderer.pose import Pose
+    from renderer.response.spin_table import SpinTable
+    from renderer.views import WorldPanorama
+
+    table = tmp_path / "toy.npz"
+    rc, _, err = run(["response", "compute", "toy-axial-n", "--field-uT", "50", "--k-s", "1e6",
+                      "--out", str(table)], capsys)
+    assert rc == 0, err
+    out = tmp_path / "f.png"
+    rc, _, err = run(["render", "--lat", "52", "--lon", "9.5", "--yaw", "20", "--width", "64",
+                      "--response-table", str(table), "--alignment", "tilt,tilt_deg=30",
+                      "--gain", "2", "--out", str(out)], capsys)
+    assert rc == 0, err
+    from renderer.composite import to_uint8_srgb
+
+    ref = renderer.render(igrf(52, 9.5), Pose(20), load_layout("lateral").with_alignment(Tilt(tilt_deg=30)),
+                          SpinTable.load(table), WorldPanorama(64), gain=2.0)
+    assert np.array_equal(to_uint8_srgb(read_image_linear(out)), to_uint8_srgb(ref))
+    rc, _, err = run(["render", "--lat", "52", "--lon", "9.5", "--width", "64", "--alignment",
+                      "tilt,tilt_deg", "--out", str(tmp_path / "g.png")], capsys)
+    assert rc == 2 and "--alignment" in err

@@ -50,6 +50,11 @@ def add_model_args(p):
     g.add_argument("--legendre", default="0.7,0,0.1",
                    help="axial response as Legendre coefficients c0,c1,c2,... (default 0.7,0,0.1)")
     g.add_argument("--response-csv", help="axial response table: CSV of theta_deg,value")
+    g.add_argument("--response-table", help="spin response table (.npz) from 'magretina response compute'")
+    g.add_argument("--alignment", default=None,
+                   help="receptor alignment for every eye: MODE[,key=value,...], e.g. "
+                        "'tilt,tilt_deg=54.74', 'disorder,kappa=5', 'full-frame,in_plane=random' "
+                        "(modes: normal, chief-ray, tilt, disorder, ratio, full-frame)")
     g.add_argument("--product", default="singlet", help="which product drives vision: singlet | triplet")
     g.add_argument("--gain", type=float, default=1.0, help="modulation gain (>= 0)")
 
@@ -57,6 +62,10 @@ def add_model_args(p):
 def response_from_args(a):
     from ..response import Legendre, Tabulated
 
+    if getattr(a, "response_table", None):
+        from ..response.spin_table import SpinTable
+
+        return SpinTable.load(a.response_table)
     if a.response_csv:
         return Tabulated.from_csv(a.response_csv)
     try:
@@ -64,6 +73,30 @@ def response_from_args(a):
     except ValueError:
         raise MagretinaError(f"--legendre {a.legendre!r}: expected comma-separated numbers") from None
     return Legendre(coeffs)
+
+
+def layout_from_args(a):
+    """The layout named by --layout, with --alignment applied to every eye if given."""
+    from ..eye import load_layout
+
+    layout = load_layout(a.layout)
+    spec = getattr(a, "alignment", None)
+    if not spec:
+        return layout
+    parts = [x.strip() for x in str(spec).split(",") if x.strip()]
+    table = {"mode": parts[0]}
+    for item in parts[1:]:
+        key, sep, value = item.partition("=")
+        if not sep:
+            raise MagretinaError(f"--alignment {spec!r}: expected MODE[,key=value,...]; "
+                                 f"{item!r} has no '='")
+        try:
+            table[key.strip()] = float(value)
+        except ValueError:
+            table[key.strip()] = value.strip()
+    from ..eye.alignment import parse_alignment
+
+    return layout.with_alignment(parse_alignment(table, where="--alignment"))
 
 
 def add_view_args(p, default_width=1024):

@@ -101,14 +101,13 @@ def register(sub):
 def run(a) -> int:
     import numpy as np
 
-    from ..eye import load_layout
     from ..pose import Pose
     from ..predict import CAUTION
     from ..predict.summary import predict_summary
 
     field = _common.field_from_args(a)
     pose = Pose(a.yaw, a.pitch, a.roll)
-    layout = load_layout(a.layout)
+    layout = _common.layout_from_args(a)
     response = _common.response_from_args(a)
     spec = spec_from_args(a)
     counts = counts_from_args(a)

@@ -70,7 +70,6 @@ def _apply_config(a):
 def run(a) -> int:
     import renderer
     from ..composite import pattern_grey
-    from ..eye import load_layout
     from ..io import write_png8_srgb, write_png16_linear
     from ..pose import Pose
 
@@ -80,7 +79,7 @@ def run(a) -> int:
     _common.refuse_overwrite([a.out, a.png16, a.pattern], a.force)
     field = _common.field_from_args(a)
     pose = Pose(a.yaw, a.pitch, a.roll)
-    layout = load_layout(a.layout)
+    layout = _common.layout_from_args(a)
     response = _common.response_from_args(a)
     view = _common.view_from_args(a)
     scene = _common.scene_from_args(a, view.shape[1])

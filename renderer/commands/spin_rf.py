@@ -11,7 +11,6 @@ is in :mod:`renderer.spin.planner`, :mod:`renderer.spin.large`,
 
 from __future__ import annotations
 
-import math
 import os
 
 import numpy as np
