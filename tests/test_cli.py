@@ -126,6 +126,7 @@ def test_render_with_spin_table_and_alignment(tmp_path, capsys):
     from renderer.io import read_image_linear
     from renderer.pose import Pose
     from renderer.response.spin_table import SpinTable
+    from renderer.scene import dusk
     from renderer.views import WorldPanorama
 
     table = tmp_path / "toy.npz"
@@ -140,7 +141,7 @@ def test_render_with_spin_table_and_alignment(tmp_path, capsys):
     from renderer.composite import to_uint8_srgb
 
     ref = renderer.render(igrf(52, 9.5), Pose(20), load_layout("lateral").with_alignment(Tilt(tilt_deg=30)),
-                          SpinTable.load(table), WorldPanorama(64), gain=2.0)
+                          SpinTable.load(table), WorldPanorama(64), gain=2.0, scene=dusk(1024))
     assert np.array_equal(to_uint8_srgb(read_image_linear(out)), to_uint8_srgb(ref))
     rc, _, err = run(["render", "--lat", "52", "--lon", "9.5", "--width", "64", "--alignment",
                       "tilt,tilt_deg", "--out", str(tmp_path / "g.png")], capsys)
