@@ -34,7 +34,7 @@ def register(subparsers):
     c.add_argument("--k-t", type=float, default=None, help="triplet rate, s^-1 (default: k_s)")
     c.add_argument("--lmax", type=int, default=16, help="highest spherical-harmonic degree (even)")
     c.add_argument("--method", default="auto",
-                   choices=["auto", "separable", "eigenbasis", "liouville"], help="spin solver")
+                   choices=["auto", "separable", "eigenbasis", "liouville", "spectral"], help="spin solver")
     c.add_argument("--no-cache", action="store_true", help="neither read nor write the disk cache")
     c.add_argument("--out", required=True, metavar="TABLE", help="output table file (.npz)")
     c.set_defaults(func=cmd_compute)

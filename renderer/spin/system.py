@@ -17,7 +17,7 @@ from __future__ import annotations
 
 import math
 import os
-from dataclasses import dataclass, field, replace
+from dataclasses import dataclass, replace
 
 import numpy as np
 import scipy.constants as sc
@@ -422,6 +422,10 @@ def estimate_memory_bytes(pair: RadicalPair, method: str) -> int:
     if method == "separable":
         na, nb = pair.a.dim, pair.b.dim
         return 16 * 8 * (na * na + nb * nb)
+    if method == "spectral":
+        from .planner import estimate
+
+        return {e.method: e for e in estimate(pair)}["spectral"].memory_bytes
     raise ValueError(method)
 
 

@@ -1,6 +1,5 @@
 """Spin response tables: symmetry halving, residual, saving, disk cache."""
 
-import os
 import threading
 
 import numpy as np

@@ -4,7 +4,6 @@ import argparse
 import os
 
 import numpy as np
-import pytest
 
 from renderer.commands import response as cmd
 from renderer.response.spin_table import SpinTable
