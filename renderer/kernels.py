@@ -36,6 +36,11 @@ import math
 import numpy as np
 from numba import njit, prange
 
+#: LLVM fast-math flags safe for this module: no 'nnan'/'ninf', because NaN marks unseen
+#: pixels and is tested for; no "afn" either, so atan2 and sqrt stay exact (the visibility
+#: test relies on that).  Contraction to FMA and reciprocals only.
+FASTMATH = {"contract", "arcp", "nsz"}
+
 PARAMS = 20
 P_Q, P_NASAL, P_TEMPORAL, P_DORSAL, P_VENTRAL, P_SIGN, P_FULL, P_E2 = range(8)
 P_MODE, P_LUT, P_CUBE = 8, 9, 10
@@ -155,7 +160,7 @@ def cube_table(evaluate_dirs, n=257, n_sample=65):
 # numba kernels
 # ---------------------------------------------------------------------------
 
-@njit(cache=True, inline="always")
+@njit(cache=True, inline="always", fastmath=FASTMATH)
 def _lut_lookup(lut, c):
     n1 = lut.shape[0] - 1
     x = (c + 1.0) * 0.5 * n1
@@ -168,7 +173,7 @@ def _lut_lookup(lut, c):
     return lut[i] + f * (lut[i + 1] - lut[i])
 
 
-@njit(cache=True, inline="always")
+@njit(cache=True, inline="always", fastmath=FASTMATH)
 def _lut_row_lookup(luts, row, c):
     """_lut_lookup on row ``row`` of a (K, L) table stack, without making a view."""
     n1 = luts.shape[1] - 1
@@ -182,7 +187,7 @@ def _lut_row_lookup(luts, row, c):
     return luts[row, i] + f * (luts[row, i + 1] - luts[row, i])
 
 
-@njit(cache=True, inline="always")
+@njit(cache=True, inline="always", fastmath=FASTMATH)
 def _cube_lookup(cube, x, y, z):
     ax = abs(x)
     ay = abs(y)
@@ -225,7 +230,7 @@ ATAN_MARGIN = 1e-7
 _A0, _A1, _A2, _A3, _A4, _A5, _A6, _A7 = ATAN_COEFFS
 
 
-@njit(cache=True, inline="always")
+@njit(cache=True, inline="always", fastmath=FASTMATH)
 def _fast_atan(x):
     z = x * x
     p = _A5 + z * (_A6 + z * _A7)
@@ -242,7 +247,7 @@ def fast_angle(r, ux):
     return 0.5 * math.pi - _fast_atan(ux / r)
 
 
-@njit(cache=True, inline="always")
+@njit(cache=True, inline="always", fastmath=FASTMATH)
 def _visible(ux, uy, uz, p):
     if p[P_FULL] != 0.0 or ux >= p[P_COS_IN]:
         return True
@@ -275,7 +280,7 @@ def _visible(ux, uy, uz, p):
     return k * alpha * alpha <= s2
 
 
-@njit(cache=True, inline="always")
+@njit(cache=True, inline="always", fastmath=FASTMATH)
 def _frame_signal(ux, uy, uz, A, B, bx, by, bz, c, p, lut, cube):
     """Signal of the modes that need the receptor's in-plane frame (ratio, full)."""
     mode = p[P_MODE]
@@ -312,7 +317,7 @@ def _frame_signal(ux, uy, uz, A, B, bx, by, bz, c, p, lut, cube):
     return _cube_lookup(cube, cp * be1 + sp * be2, cp * be2 - sp * be1, c)
 
 
-@njit(cache=True, inline="always")
+@njit(cache=True, inline="always", fastmath=FASTMATH)
 def _signal(vx, vy, vz, R_eye_view, eye_params, b_eye, luts, cubes, pick):
     """Signal for a unit view direction; NaN if no eye sees it.
 
@@ -366,7 +371,7 @@ def _signal(vx, vy, vz, R_eye_view, eye_params, b_eye, luts, cubes, pick):
     return acc / cnt
 
 
-@njit(parallel=True, cache=True)
+@njit(parallel=True, cache=True, fastmath=FASTMATH)
 def _pattern_equirect(cos_el, sin_el, cos_az, sin_az, R_head_view, R_eye_view, eye_params,
                      b_eye, lut, cubes, pick, out):
     """Signal on an equirectangular grid whose directions are in the view frame.
@@ -384,7 +389,7 @@ def _pattern_equirect(cos_el, sin_el, cos_az, sin_az, R_head_view, R_eye_view, e
             out[i, j] = _signal(vx, vy, vz, R_eye_view, eye_params, b_eye, lut, cubes, pick)
 
 
-@njit(parallel=True, cache=True)
+@njit(parallel=True, cache=True, fastmath=FASTMATH)
 def _pattern_dirs(dirs, R_head_view, R_eye_view, eye_params, b_eye, lut, cubes, pick, out):
     """Signal for explicit unit directions ``dirs`` (N, 3) in the view frame -> ``out`` (N,)."""
     for n in prange(dirs.shape[0]):
@@ -397,7 +402,7 @@ def _pattern_dirs(dirs, R_head_view, R_eye_view, eye_params, b_eye, lut, cubes, 
         out[n] = _signal(vx, vy, vz, R_eye_view, eye_params, b_eye, lut, cubes, pick)
 
 
-@njit(cache=True, inline="always")
+@njit(cache=True, inline="always", fastmath=FASTMATH)
 def _bilinear(scene, x, y, out_px):
     """Bilinear sample at continuous pixel coords (x wraps, y clamps); x, y in pixels
     with pixel j spanning [j, j+1)."""
@@ -425,7 +430,7 @@ def _bilinear(scene, x, y, out_px):
         out_px[c] = a * (1.0 - fy) + b * fy
 
 
-@njit(cache=True, inline="always")
+@njit(cache=True, inline="always", fastmath=FASTMATH)
 def _modulate(px, s, inv_mean, gain, outside, out_px):
     C = px.shape[0]
     if s != s:
@@ -442,7 +447,7 @@ def _modulate(px, s, inv_mean, gain, outside, out_px):
         out_px[c] = v
 
 
-@njit(parallel=True, cache=True)
+@njit(parallel=True, cache=True, fastmath=FASTMATH)
 def _composite_world_aligned(scene, cos_el, sin_el, cos_az, sin_az, R_head_view, R_eye_view,
                             eye_params, b_eye, lut, cubes, pick, inv_mean, gain, outside, out):
     """Composite a world panorama whose pixel grid coincides with the scene's.
@@ -463,7 +468,7 @@ def _composite_world_aligned(scene, cos_el, sin_el, cos_az, sin_az, R_head_view,
             _modulate(scene[i, j], s, inv_mean, gain, outside, out[i, j])
 
 
-@njit(parallel=True, cache=True)
+@njit(parallel=True, cache=True, fastmath=FASTMATH)
 def _composite_resampled(scene, north_col, cos_el, sin_el, cos_az, sin_az, R_head_view,
                         R_world_view, R_eye_view, eye_params, b_eye, lut, cubes, pick, inv_mean,
                          gain, outside, out):
@@ -498,7 +503,7 @@ def _composite_resampled(scene, north_col, cos_el, sin_el, cos_az, sin_az, R_hea
             _modulate(px, s, inv_mean, gain, outside, out[i, j])
 
 
-@njit(parallel=True, cache=True)
+@njit(parallel=True, cache=True, fastmath=FASTMATH)
 def _composite_dirs(scene, north_col, dirs, R_head_view, R_world_view, R_eye_view, eye_params,
                    b_eye, lut, cubes, pick, inv_mean, gain, outside, out):
     """Composite for explicit view directions ``dirs`` (N, 3); ``out`` (N, C) float32.
