@@ -16,8 +16,13 @@ from conftest import random_fields, random_pair, random_tensor
 
 
 def all_methods(pair, fields):
+    """Yields from every *exact* solver that applies.  The spectral-convolution solver
+    (renderer.spin.large) carries a stated error bound instead and is checked against
+    the exact solvers within that bound in test_large.py and test_solver_dispatch.py."""
     out = {}
     for name, mod in SOLVERS.items():
+        if getattr(mod, "DEFAULT_TOL", 0.0) > 0.0:
+            continue
         if mod.applicable(pair)[0]:
             out[name] = yields(pair, fields, method=name)
     return out
