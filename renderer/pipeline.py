@@ -20,8 +20,11 @@ from . import kernels
 from .errors import MagretinaError
 from .response.base import LUT_SIZE
 
-#: Head-frame grid used for the visual-field mean (width; height is half).
-MEAN_GRID_WIDTH = 720
+#: Head-frame grid used for the visual-field mean (width; height is half).  Measured
+#: against a 4096-wide grid for the lateral, frontal and tawny-owl layouts, the 360-wide
+#: grid's mean is within 3.5e-5 (relative): far below one 8-bit step of any modulation,
+#: at a quarter of the cost of a 720-wide grid.
+MEAN_GRID_WIDTH = 360
 
 PRODUCTS = ("singlet", "triplet")
 

@@ -59,7 +59,10 @@ def test_modulation_is_mean_preserving():
     seen = ~np.isnan(sig)
     w = view.solid_angle()
     lum = img[..., 1].astype(np.float64)
-    assert abs(np.sum(lum[seen] * w[seen]) / np.sum(w[seen]) - 0.4) < 1e-5
+    # ⟨s⟩ comes from the 360-wide head grid, the check integrates on this 720-wide view:
+    # two midpoint quadratures of one integral, measured within 3.5e-5 (relative) of
+    # each other (renderer.pipeline.MEAN_GRID_WIDTH), so 0.4·5e-5 = 2e-5 here.
+    assert abs(np.sum(lum[seen] * w[seen]) / np.sum(w[seen]) - 0.4) < 2e-5
     assert np.all(lum[~seen] == 0.0)
 
 
