@@ -376,17 +376,25 @@ def _pattern_equirect(cos_el, sin_el, cos_az, sin_az, R_head_view, R_eye_view, e
                      b_eye, lut, cubes, pick, out):
     """Signal on an equirectangular grid whose directions are in the view frame.
 
-    ``out`` (H, W) float64 is filled; NaN where no eye sees.
+    ``out`` (H, W) float64 is filled; NaN where no eye sees.  Computed by the row-tile
+    passes (see :func:`_tile_signal`).
     """
     H = cos_el.shape[0]
     W = cos_az.shape[0]
-    for i in prange(H):
-        ce = cos_el[i]
-        vz = -sin_el[i]
-        for j in range(W):
-            vx = ce * cos_az[j]
-            vy = ce * sin_az[j]
-            out[i, j] = _signal(vx, vy, vz, R_eye_view, eye_params, b_eye, lut, cubes, pick)
+    chord = _block_chords(cos_az, sin_az)
+    nblk = (H + ROW_BLOCK - 1) // ROW_BLOCK
+    for blk in prange(nblk):
+        buf = np.empty((11, TILE))
+        ibuf = np.empty((2, TILE), dtype=np.int64)
+        for i in range(blk * ROW_BLOCK, min(H, (blk + 1) * ROW_BLOCK)):
+            for j0 in range(0, W, TILE):
+                j1 = min(W, j0 + TILE)
+                _tile_signal(cos_el[i], -sin_el[i], cos_az[j0:j1], sin_az[j0:j1],
+                             chord[j0 // SUB:], R_eye_view, eye_params, b_eye, lut, cubes, pick,
+                             buf, ibuf)
+                for j in range(j0, j1):
+                    k = buf[8, j - j0]
+                    out[i, j] = buf[7, j - j0] / k if k > 0.0 else np.nan
 
 
 @njit(parallel=True, cache=True, fastmath=FASTMATH)
@@ -447,25 +455,473 @@ def _modulate(px, s, inv_mean, gain, outside, out_px):
         out_px[c] = v
 
 
+# ---------------------------------------------------------------------------
+# row-tile composites of equirectangular views
+# ---------------------------------------------------------------------------
+# The per-pixel kernels above branch per eye (early reject, visibility band, mode), which
+# keeps LLVM from vectorising them.  For the composited equirectangular views (world
+# panorama, and the signal of resampled views) the work is instead done per tile of a row and per eye in simple, branch-free
+# loops over buffers that stay in L1 cache: selects replace branches, loop-invariant
+# choices (mode, geometry, full sphere) are taken once per tile, and the rare directions
+# the fast visibility test cannot decide are settled afterwards by the exact scalar
+# ``_visible``.  ``error_model="numpy"``: numba's default checks every float division for
+# zero (to raise ZeroDivisionError), and that branch alone stops vectorisation; no divisor
+# here can be zero (guarded by selects), so nothing observable changes.  Same maths as
+# ``_signal`` (and its NumPy twin), only the order differs; the tests compare both.
+
+#: Margin (rad) of the float32 fast angle of the tile pass.  Its error: float32 rounding
+#: of s², √, |u_x| and the quotient (≈ 4·2⁻²⁴ relative in t, ≤ 2.4e-7 rad in atan t),
+#: Horner evaluation in float32 (≲ 10·2⁻²⁴ ≈ 6e-7 rad), coefficients rounded to float32
+#: (Σ|c_k|·2⁻²⁴ ≈ 1.1e-7) and the fit (3.8e-8): under 1e-6 rad, a tenth of the margin.
+#: Directions within it of the boundary (1.5e-5 of the pixel-eye pairs of bench/frame.py)
+#: go to the exact test.  (s² underflowing in float32 only shrinks t and its error.)
+ATAN32_MARGIN = 1e-5
+_F0, _F1, _F2, _F3, _F4, _F5, _F6, _F7 = (np.float32(c) for c in ATAN_COEFFS)
+
+
+@njit(cache=True, inline="always", fastmath=FASTMATH)
+def _fast_atan32(x):
+    """``_fast_atan`` in float32 (x float32)."""
+    z = x * x
+    p = _F5 + z * (_F6 + z * _F7)
+    return x * (_F0 + z * (_F1 + z * (_F2 + z * (_F3 + z * (_F4 + z * p)))))
+
+
+#: Columns per tile: the eleven float64 tile buffers take 11·256·8 B = 22 KiB (L1-resident).
+TILE = 256
+#: Columns per visibility block (see _tile_visibility); TILE is a multiple of it.
+SUB = 64
+#: Rows per parallel work item, so the tile buffers are allocated once per block.
+ROW_BLOCK = 8
+_PI = math.pi
+_HALF_PI = 0.5 * math.pi
+
+
+@njit(cache=True)
+def _block_chords(cos_az, sin_az):
+    """Per block of SUB columns: the largest distance of a column's (cos az, sin az) from
+    the block's centre column's (centre = first + (length − 1) // 2)."""
+    W = cos_az.shape[0]
+    out = np.empty((W + SUB - 1) // SUB)
+    for b0 in range(0, W, SUB):
+        b1 = min(W, b0 + SUB)
+        jc = b0 + (b1 - b0 - 1) // 2
+        m = 0.0
+        for j in range(b0, b1):
+            dc = cos_az[j] - cos_az[jc]
+            ds = sin_az[j] - sin_az[jc]
+            m = max(m, math.sqrt(dc * dc + ds * ds))
+        out[b0 // SUB] = m
+    return out
+
+
+@njit(cache=True, fastmath=FASTMATH, error_model="numpy")
+def _tile_visibility(ce, vz, caz, saz, chord, R, p, ux, uy, uz, st):
+    """Eye-frame directions of one tile (``caz``, ``saz`` its column tables) and their
+    visibility state ``st``: 1 seen, 0 not, 2 left to the exact test; returns the number
+    of 2s and of 1s.
+
+    As in ``_visible``, a fast angle decides unless it lies within its error margin of the
+    boundary (here the float32 angle and ATAN32_MARGIN), so every decision taken equals
+    the exact atan2 test's; the branch-free atan form (min/max ratio, then reflections)
+    is ``fast_angle``'s three cases.  On-axis directions (s² = 0) go to ``_visible``.
+
+    Blocks of SUB columns lie within ``chord[b]`` (the largest distance of a block's
+    (cos az, sin az) from its centre pixel's) of that pixel, so their u_x is within
+    cos(el)·|(R00, R01)|·chord[b] of the centre's: a block wholly inside the smallest or
+    outside the largest half-width is settled without the angle (most of the sphere).
+    """
+    n = caz.shape[0]
+    r00, r01, r02 = R[0, 0], R[0, 1], R[0, 2]
+    full = p[P_FULL] != 0.0
+    # a full-sphere eye sees everything: every direction passes the inner-cone test
+    cin = -np.inf if full else p[P_COS_IN]
+    cout = p[P_COS_OUT]
+    sg = p[P_SIGN]
+    # 1/w² per quadrant, picked by adding a difference rather than by a select: LLVM turns
+    # a select of two reciprocals into a division per pixel.  The rounding this adds to k
+    # (~1e-16 relative) is far inside ATAN_MARGIN, so the decisions do not change.
+    i_tem = 1.0 / (p[P_TEMPORAL] * p[P_TEMPORAL])
+    d_nas = 1.0 / (p[P_NASAL] * p[P_NASAL]) - i_tem
+    i_ven = 1.0 / (p[P_VENTRAL] * p[P_VENTRAL])
+    d_dor = 1.0 / (p[P_DORSAL] * p[P_DORSAL]) - i_ven
+    rho = abs(ce) * math.sqrt(r00 * r00 + r01 * r01)
+    undecided = 0
+    seen = 0
+    for b0 in range(0, n, SUB):
+        b1 = min(n, b0 + SUB)
+        jc = b0 + (b1 - b0 - 1) // 2
+        xc = r00 * (ce * caz[jc]) + r01 * (ce * saz[jc]) + r02 * vz
+        # 1e-12 covers the rounding of the computed u_x (~1e-16)
+        bnd = rho * chord[b0 // SUB] + 1e-12
+        if xc - bnd >= cin or xc + bnd < cout:
+            whole = 1.0 if xc - bnd >= cin else 0.0
+            _block_rotate(ce, vz, caz[b0:b1], saz[b0:b1], R, ux[b0:b1], uy[b0:b1], uz[b0:b1],
+                          st[b0:b1], whole)
+            if whole == 1.0:
+                seen += b1 - b0
+        else:
+            # a separate function: LLVM vectorises the loop only outside the block loop
+            u, v = _block_band(ce, vz, caz[b0:b1], saz[b0:b1], R, cin, cout, sg, i_tem,
+                               d_nas, i_ven, d_dor, ux[b0:b1], uy[b0:b1], uz[b0:b1], st[b0:b1])
+            undecided += u
+            seen += v
+    return undecided, seen
+
+
+@njit(cache=True, fastmath=FASTMATH, error_model="numpy")
+def _block_rotate(ce, vz, caz, saz, R, ux, uy, uz, st, whole):
+    r00, r01, r02 = R[0, 0], R[0, 1], R[0, 2]
+    r10, r11, r12 = R[1, 0], R[1, 1], R[1, 2]
+    r20, r21, r22 = R[2, 0], R[2, 1], R[2, 2]
+    for j in range(caz.shape[0]):
+        vx = ce * caz[j]
+        vy = ce * saz[j]
+        ux[j] = r00 * vx + r01 * vy + r02 * vz
+        uy[j] = r10 * vx + r11 * vy + r12 * vz
+        uz[j] = r20 * vx + r21 * vy + r22 * vz
+        st[j] = whole
+
+
+@njit(cache=True, fastmath=FASTMATH, error_model="numpy")
+def _block_band(ce, vz, caz, saz, R, cin, cout, sg, i_tem, d_nas, i_ven, d_dor, ux, uy, uz, st):
+    """The visibility test of :func:`_tile_visibility` for a block in the band."""
+    r00, r01, r02 = R[0, 0], R[0, 1], R[0, 2]
+    r10, r11, r12 = R[1, 0], R[1, 1], R[1, 2]
+    r20, r21, r22 = R[2, 0], R[2, 1], R[2, 2]
+    undecided = 0
+    seen = 0
+    for j in range(caz.shape[0]):
+        vx = ce * caz[j]
+        vy = ce * saz[j]
+        x = r00 * vx + r01 * vy + r02 * vz
+        y = r10 * vx + r11 * vy + r12 * vz
+        z = r20 * vx + r21 * vy + r22 * vz
+        ux[j] = x
+        uy[j] = y
+        uz[j] = z
+        h = sg * y
+        v = -z
+        hh = h * h
+        vv = v * v
+        s2 = hh + vv
+        k = hh * (i_tem + d_nas * (h >= 0.0)) + vv * (i_ven + d_dor * (v >= 0.0))
+        # the angle in float32 (twice the lanes through the divider, which bounds this
+        # loop), min/max as selects before the one division (inside the quotient, LLVM
+        # speculated a division per branch); the comparison stays float64
+        r = math.sqrt(np.float32(s2))
+        ax = abs(np.float32(x))
+        mn = min(r, ax)
+        mx = max(r, ax)
+        a = np.float64(_fast_atan32(mn / mx))
+        a = _HALF_PI - a if r > ax else a
+        a = _PI - a if x < 0.0 else a
+        hi = a + ATAN32_MARGIN
+        lo = a - ATAN32_MARGIN
+        yes = k * hi * hi <= s2
+        no = (lo > 0.0) & (k * lo * lo > s2)
+        band = 1.0 if yes else (0.0 if no else 2.0)
+        band = 2.0 if s2 == 0.0 else band
+        sj = 1.0 if x >= cin else (0.0 if x < cout else band)
+        st[j] = sj
+        undecided += sj == 2.0
+        seen += sj == 1.0
+    return undecided, seen
+
+
+@njit(cache=True, fastmath=FASTMATH, error_model="numpy")
+def _tile_axis(p, b, ux, uy, uz, A, B, c):
+    """Base receptor axis A·x̂ + B·u⊥ and c = cos θ to the field, as in ``_signal``;
+    the chief-ray geometry (q = 0, e2 = 1: A = u_x, B = 1 exactly) skips the square root."""
+    n = ux.shape[0]
+    q = p[P_Q]
+    e2 = p[P_E2]
+    bx, by, bz = b[0], b[1], b[2]
+    if q == 0.0 and e2 == 1.0:
+        for j in range(n):
+            x = ux[j]
+            xc = 1.0 if x > 1.0 else (-1.0 if x < -1.0 else x)
+            A[j] = xc
+            B[j] = 1.0
+            c[j] = xc * bx + (uy[j] * by + uz[j] * bz)
+    elif e2 == 1.0:
+        qq = q * q
+        for j in range(n):
+            x = ux[j]
+            xc = 1.0 if x > 1.0 else (-1.0 if x < -1.0 else x)
+            s2 = 1.0 - xc * xc
+            Bj = q * xc + math.sqrt(1.0 - qq * s2)
+            Aj = Bj * xc - q
+            A[j] = Aj
+            B[j] = Bj
+            c[j] = Aj * bx + Bj * (uy[j] * by + uz[j] * bz)
+    else:
+        for j in range(n):
+            x = ux[j]
+            xc = 1.0 if x > 1.0 else (-1.0 if x < -1.0 else x)
+            s2 = 1.0 - xc * xc
+            kk = e2 * xc * xc + s2
+            hb = q * e2 * xc
+            t = (hb + math.sqrt(hb * hb - kk * (q * q * e2 - 1.0))) / kk
+            axx = (t * xc - q) * e2
+            inv = 1.0 / math.sqrt(axx * axx + t * t * s2)
+            Aj = axx * inv
+            Bj = t * inv
+            A[j] = Aj
+            B[j] = Bj
+            c[j] = Aj * bx + Bj * (uy[j] * by + uz[j] * bz)
+
+
+@njit(cache=True, fastmath=FASTMATH, error_model="numpy")
+def _tile_lut_index(lut, c, idx, frac):
+    """Cell index and fraction of ``_lut_lookup`` for a tile (clamps as selects).
+
+    At c >= 1 this gives cell n1 - 1 with fraction 1, i.e. lut[n1] up to rounding.  The
+    table reads themselves are left to :func:`_tile_lut_acc`: LLVM does not emit vector
+    gathers for this CPU family, and a gather inside the loop would keep the arithmetic
+    here from vectorising.
+    """
+    n1 = lut.shape[0] - 1
+    top = n1 - 1
+    for j in range(c.shape[0]):
+        x = (c[j] + 1.0) * 0.5 * n1
+        x = 0.0 if x < 0.0 else (float(n1) if x > n1 else x)
+        i = int(x)
+        i = top if i > top else i
+        idx[j] = i
+        frac[j] = x - i
+
+
+@njit(cache=True, inline="always")
+def _lut_at(lut, i, f):
+    a = lut[i]
+    return a + f * (lut[i + 1] - a)
+
+
+@njit(cache=True, fastmath=FASTMATH, error_model="numpy")
+def _tile_lut_acc(lut, idx, frac, st, acc, cnt):
+    """Axial modes: add the interpolated table value of every seen pixel (scalar reads)."""
+    for j in range(idx.shape[0]):
+        if st[j] == 1.0:
+            acc[j] += _lut_at(lut, idx[j], frac[j])
+            cnt[j] += 1.0
+
+
+@njit(cache=True, fastmath=FASTMATH, error_model="numpy")
+def _tile_frame(p, b, ux, uy, uz, A, B, c, be1, be2):
+    """Field components on the receptor's in-plane frame (e1, e2), as in ``_frame_signal``."""
+    n = ux.shape[0]
+    bx, by, bz = b[0], b[1], b[2]
+    if p[P_MODE] == MODE_FULL_FIXED:
+        for j in range(n):
+            a2 = B[j] * uz[j]
+            n2 = 1.0 - a2 * a2
+            ok = n2 > 1e-24
+            inv = 1.0 / math.sqrt(n2 if ok else 1.0)
+            be1[j] = (a2 * c[j] - bz) * inv if ok else bx
+            be2[j] = (by * A[j] - bx * B[j] * uy[j]) * inv if ok else by * a2
+    else:
+        for j in range(n):
+            y = uy[j]
+            z = uz[j]
+            s2 = y * y + z * z
+            ok = s2 > 0.0
+            inv = 1.0 / math.sqrt(s2 if ok else 1.0)
+            bu = by * y + bz * z
+            be1[j] = A[j] * bu * inv - B[j] * bx * s2 * inv if ok else A[j] * by
+            be2[j] = (bz * y - by * z) * inv if ok else bz
+
+
+@njit(cache=True, fastmath=FASTMATH, error_model="numpy")
+def _tile_ratio_arg(p, c, be1, be2, cb):
+    """Ratio mode: cos θ of population B, RB0·c + RB1·(b·e1) + RB2·(b·e2)."""
+    r0, r1, r2 = p[P_RB0], p[P_RB1], p[P_RB2]
+    for j in range(c.shape[0]):
+        cb[j] = r0 * c[j] + r1 * be1[j] + r2 * be2[j]
+
+
+@njit(cache=True, fastmath=FASTMATH, error_model="numpy")
+def _tile_ratio_acc(lut, idx_a, frac_a, idx_b, frac_b, st, acc, cnt):
+    for j in range(idx_a.shape[0]):
+        if st[j] == 1.0:
+            acc[j] += _lut_at(lut, idx_a[j], frac_a[j]) / _lut_at(lut, idx_b[j], frac_b[j])
+            cnt[j] += 1.0
+
+
+@njit(cache=True, fastmath=FASTMATH, error_model="numpy")
+def _tile_cube_index(p, m, c, be1, be2, idx, fu_out, fv_out):
+    """Full-frame modes: ``_cube_lookup``'s face, cell and fractions for a tile, the
+    face choice as selects; ``idx`` is the cell's first node in the flattened table
+    (6, m, m).  The reads are in :func:`_tile_cube_acc`."""
+    cp = p[P_COS_PSI]
+    sp = p[P_SIN_PSI]
+    mm = m * m
+    h = 0.5 * (m - 1)
+    n2 = m - 2
+    for j in range(c.shape[0]):
+        e1 = be1[j]
+        e2 = be2[j]
+        x = cp * e1 + sp * e2
+        y = cp * e2 - sp * e1
+        z = c[j]
+        ax = abs(x)
+        ay = abs(y)
+        az = abs(z)
+        isx = (ax >= ay) & (ax >= az)
+        isy = ay >= az
+        f = ((0 if x > 0.0 else 1) if isx
+             else ((2 if y > 0.0 else 3) if isy else (4 if z > 0.0 else 5)))
+        inv = 1.0 / (ax if isx else (ay if isy else az))
+        u = y if isx else x
+        v = z if (isx or isy) else y
+        xu = (u * inv + 1.0) * h
+        xv = (v * inv + 1.0) * h
+        iu = int(xu)
+        iv = int(xv)
+        iu = 0 if iu < 0 else (n2 if iu > n2 else iu)
+        iv = 0 if iv < 0 else (n2 if iv > n2 else iv)
+        fu_out[j] = xu - iu
+        fv_out[j] = xv - iv
+        idx[j] = f * mm + iu * m + iv
+
+
+@njit(cache=True, fastmath=FASTMATH, error_model="numpy")
+def _tile_cube_acc(flat, m, idx, fu, fv, st, acc, cnt):
+    for j in range(idx.shape[0]):
+        if st[j] == 1.0:
+            k0 = idx[j]
+            g = fv[j]
+            t00 = flat[k0]
+            t10 = flat[k0 + m]
+            t = t00 + g * (flat[k0 + 1] - t00)
+            bb = t10 + g * (flat[k0 + m + 1] - t10)
+            acc[j] += t + fu[j] * (bb - t)
+            cnt[j] += 1.0
+
+
+@njit(cache=True, fastmath=FASTMATH, error_model="numpy")
+def _tile_modulate(scene_row, acc, cnt, inv_mean, gain, outside, C, out_row):
+    """``_modulate`` for one tile of flattened (n·C,) rows: seen pixels scaled by
+    1 + gain·(s/mean − 1) and clipped to [0, 1], unseen ones (cnt = 0, s = NaN)
+    multiplied by ``outside``, unclipped."""
+    for j in range(acc.shape[0]):
+        n = cnt[j]
+        seen = n > 0.0
+        s = acc[j] / (n if seen else 1.0)
+        kk = 1.0 + gain * (s * inv_mean - 1.0) if seen else outside
+        for ch in range(C):
+            w = scene_row[j * C + ch] * kk
+            w = (0.0 if w < 0.0 else (1.0 if w > 1.0 else w)) if seen else w
+            out_row[j * C + ch] = w
+
+
+@njit(cache=True, fastmath=FASTMATH, error_model="numpy")
+def _tile_modulate3(scene_row, acc, cnt, inv_mean, gain, outside, out_row):
+    """``_tile_modulate`` for three channels, unrolled so the pixel loop vectorises."""
+    for j in range(acc.shape[0]):
+        n = cnt[j]
+        seen = n > 0.0
+        s = acc[j] / (n if seen else 1.0)
+        kk = 1.0 + gain * (s * inv_mean - 1.0) if seen else outside
+        w0 = scene_row[3 * j] * kk
+        w1 = scene_row[3 * j + 1] * kk
+        w2 = scene_row[3 * j + 2] * kk
+        c0 = 0.0 if w0 < 0.0 else (1.0 if w0 > 1.0 else w0)
+        c1 = 0.0 if w1 < 0.0 else (1.0 if w1 > 1.0 else w1)
+        c2 = 0.0 if w2 < 0.0 else (1.0 if w2 > 1.0 else w2)
+        out_row[3 * j] = c0 if seen else w0
+        out_row[3 * j + 1] = c1 if seen else w1
+        out_row[3 * j + 2] = c2 if seen else w2
+
+
+@njit(cache=True, fastmath=FASTMATH)
+def _tile_signal(ce, vz, caz, saz, chord, R_eye_view, eye_params, b_eye, lut, cubes, pick, buf,
+                 ibuf):
+    """Per-eye tile passes for one row tile: ``buf[7]`` gets the sum of the signals of the
+    eyes that see each direction, ``buf[8]`` their number (``_signal`` = sum / number, NaN
+    at 0).  ``buf`` (11, ≥ n) float64 and ``ibuf`` (2, ≥ n) int64 are scratch; ``chord``
+    from :func:`_block_chords`, starting at this tile's first block."""
+    n = caz.shape[0]
+    ux = buf[0, :n]
+    uy = buf[1, :n]
+    uz = buf[2, :n]
+    st = buf[3, :n]
+    A = buf[4, :n]
+    B = buf[5, :n]
+    c = buf[6, :n]
+    acc = buf[7, :n]
+    cnt = buf[8, :n]
+    be1 = buf[9, :n]
+    be2 = buf[10, :n]
+    ia = ibuf[0, :n]
+    ib = ibuf[1, :n]
+    acc[:] = 0.0
+    cnt[:] = 0.0
+    for e in range(R_eye_view.shape[0]):
+        if pick >= 0 and e != pick:
+            continue
+        p = eye_params[e]
+        undecided, seen = _tile_visibility(ce, vz, caz, saz, chord, R_eye_view[e], p, ux, uy,
+                                           uz, st)
+        if undecided + seen == 0:
+            continue  # this eye sees none of the tile
+        if undecided:
+            for j in range(n):
+                if st[j] == 2.0:
+                    st[j] = 1.0 if _visible(ux[j], uy[j], uz[j], p) else 0.0
+        _tile_axis(p, b_eye[e], ux, uy, uz, A, B, c)
+        table = lut[int(p[P_LUT])]
+        mode = p[P_MODE]
+        if mode == MODE_AXIAL:
+            _tile_lut_index(table, c, ia, ux)
+            _tile_lut_acc(table, ia, ux, st, acc, cnt)
+            continue
+        _tile_frame(p, b_eye[e], ux, uy, uz, A, B, c, be1, be2)
+        # the eye-frame direction is spent now: its buffers take the fractions
+        if mode == MODE_RATIO:
+            _tile_ratio_arg(p, c, be1, be2, uz)
+            _tile_lut_index(table, c, ia, ux)
+            _tile_lut_index(table, uz, ib, uy)
+            _tile_ratio_acc(table, ia, ux, ib, uy, st, acc, cnt)
+        else:
+            cube = cubes[int(p[P_CUBE])]
+            m = cube.shape[2]
+            _tile_cube_index(p, m, c, be1, be2, ia, ux, uy)
+            _tile_cube_acc(cube.reshape(-1), m, ia, ux, uy, st, acc, cnt)
+
+
 @njit(parallel=True, cache=True, fastmath=FASTMATH)
 def _composite_world_aligned(scene, cos_el, sin_el, cos_az, sin_az, R_head_view, R_eye_view,
                             eye_params, b_eye, lut, cubes, pick, inv_mean, gain, outside, out):
     """Composite a world panorama whose pixel grid coincides with the scene's.
 
-    ``scene`` and ``out`` (H, W, C) float32 linear light.  Modulation
+    ``scene`` and ``out`` (H, W, C) float32 linear light, C-contiguous.  Modulation
     m = gain·(s/mean − 1) multiplies every channel (luminance, chromaticity kept);
-    unseen pixels are multiplied by ``outside``.
+    unseen pixels are multiplied by ``outside``.  Computed per row tile (see above).
     """
     H = cos_el.shape[0]
     W = cos_az.shape[0]
-    for i in prange(H):
-        ce = cos_el[i]
-        vz = -sin_el[i]
-        for j in range(W):
-            vx = ce * cos_az[j]
-            vy = ce * sin_az[j]
-            s = _signal(vx, vy, vz, R_eye_view, eye_params, b_eye, lut, cubes, pick)
-            _modulate(scene[i, j], s, inv_mean, gain, outside, out[i, j])
+    C = scene.shape[2]
+    chord = _block_chords(cos_az, sin_az)
+    nblk = (H + ROW_BLOCK - 1) // ROW_BLOCK
+    for blk in prange(nblk):
+        buf = np.empty((11, TILE))
+        ibuf = np.empty((2, TILE), dtype=np.int64)
+        for i in range(blk * ROW_BLOCK, min(H, (blk + 1) * ROW_BLOCK)):
+            scene_row = scene[i].reshape(-1)
+            out_row = out[i].reshape(-1)
+            for j0 in range(0, W, TILE):
+                j1 = min(W, j0 + TILE)
+                n = j1 - j0
+                _tile_signal(cos_el[i], -sin_el[i], cos_az[j0:j1], sin_az[j0:j1],
+                             chord[j0 // SUB:], R_eye_view, eye_params, b_eye, lut, cubes, pick,
+                             buf, ibuf)
+                if C == 3:
+                    _tile_modulate3(scene_row[3 * j0:3 * j1], buf[7, :n], buf[8, :n], inv_mean,
+                                    gain, outside, out_row[3 * j0:3 * j1])
+                else:
+                    _tile_modulate(scene_row[C * j0:C * j1], buf[7, :n], buf[8, :n], inv_mean,
+                                   gain, outside, C, out_row[C * j0:C * j1])
 
 
 @njit(parallel=True, cache=True, fastmath=FASTMATH)
@@ -476,7 +932,8 @@ def _composite_resampled(scene, north_col, cos_el, sin_el, cos_az, sin_az, R_hea
 
     The scene is a 2:1 world panorama with geographic north at continuous column
     ``north_col``; each output pixel's direction is rotated into the world frame by
-    ``R_world_view`` and the scene sampled bilinearly.
+    ``R_world_view`` and the scene sampled bilinearly.  The signal comes from the row-tile
+    passes of the world composite; the scene lookup stays per pixel.
     """
     H = cos_el.shape[0]
     W = cos_az.shape[0]
@@ -484,23 +941,33 @@ def _composite_resampled(scene, north_col, cos_el, sin_el, cos_az, sin_az, R_hea
     SW = scene.shape[1]
     C = scene.shape[2]
     Q = R_world_view
-    for i in prange(H):
+    chord = _block_chords(cos_az, sin_az)
+    nblk = (H + ROW_BLOCK - 1) // ROW_BLOCK
+    for blk in prange(nblk):
+        buf = np.empty((11, TILE))
+        ibuf = np.empty((2, TILE), dtype=np.int64)
         px = np.empty(C, dtype=np.float32)
-        ce = cos_el[i]
-        vz = -sin_el[i]
-        for j in range(W):
-            vx = ce * cos_az[j]
-            vy = ce * sin_az[j]
-            wx = Q[0, 0] * vx + Q[0, 1] * vy + Q[0, 2] * vz
-            wy = Q[1, 0] * vx + Q[1, 1] * vy + Q[1, 2] * vz
-            wz = Q[2, 0] * vx + Q[2, 1] * vy + Q[2, 2] * vz
-            az = math.atan2(wy, wx)
-            el = math.asin(min(1.0, max(-1.0, -wz)))
-            x = north_col + az * (SW / (2.0 * math.pi))
-            y = (0.5 * math.pi - el) * (SH / math.pi)
-            _bilinear(scene, x, y, px)
-            s = _signal(vx, vy, vz, R_eye_view, eye_params, b_eye, lut, cubes, pick)
-            _modulate(px, s, inv_mean, gain, outside, out[i, j])
+        for i in range(blk * ROW_BLOCK, min(H, (blk + 1) * ROW_BLOCK)):
+            ce = cos_el[i]
+            vz = -sin_el[i]
+            for j0 in range(0, W, TILE):
+                j1 = min(W, j0 + TILE)
+                _tile_signal(ce, vz, cos_az[j0:j1], sin_az[j0:j1], chord[j0 // SUB:], R_eye_view,
+                             eye_params, b_eye, lut, cubes, pick, buf, ibuf)
+                for j in range(j0, j1):
+                    vx = ce * cos_az[j]
+                    vy = ce * sin_az[j]
+                    wx = Q[0, 0] * vx + Q[0, 1] * vy + Q[0, 2] * vz
+                    wy = Q[1, 0] * vx + Q[1, 1] * vy + Q[1, 2] * vz
+                    wz = Q[2, 0] * vx + Q[2, 1] * vy + Q[2, 2] * vz
+                    az = math.atan2(wy, wx)
+                    el = math.asin(min(1.0, max(-1.0, -wz)))
+                    x = north_col + az * (SW / (2.0 * math.pi))
+                    y = (0.5 * math.pi - el) * (SH / math.pi)
+                    _bilinear(scene, x, y, px)
+                    k = buf[8, j - j0]
+                    s = buf[7, j - j0] / k if k > 0.0 else np.nan
+                    _modulate(px, s, inv_mean, gain, outside, out[i, j])
 
 
 @njit(parallel=True, cache=True, fastmath=FASTMATH)
@@ -596,9 +1063,14 @@ def composite_world_aligned(scene, cos_el, sin_el, cos_az, sin_az, R_head_view, 
     unseen pixels are multiplied by ``outside``.
     """
     lut, cubes = _tables(eye_params, lut, cubes)
+    # the kernel walks rows as flat (W·C,) arrays, which needs C-contiguous images
+    scene = np.ascontiguousarray(scene)
+    dest = out if out.flags.c_contiguous else np.empty(out.shape, out.dtype)
     _composite_world_aligned(scene, cos_el, sin_el, cos_az, sin_az, R_head_view,
                              _fold(R_eye_head, R_head_view),
-                             eye_params, b_eye, lut, cubes, pick, inv_mean, gain, outside, out)
+                             eye_params, b_eye, lut, cubes, pick, inv_mean, gain, outside, dest)
+    if dest is not out:
+        out[...] = dest
 
 
 def composite_resampled(scene, north_col, cos_el, sin_el, cos_az, sin_az, R_head_view,
