@@ -4,10 +4,13 @@ Every executor has ``submit(kind, task)`` (kind ``"render"`` or ``"finish"``, se
 :mod:`.worker`) and ``next_result()``, which blocks until some unit has finished
 and returns its result (or raises its exception), so the runner streams results
 as they arrive.  Shared resources (layout, views with their precomputed direction
-tables, responses, scene) are sent once per worker: as the pool initializer's
-arguments, or scattered to every Dask worker (``broadcast=True``) and passed as
-futures.  Dask tasks are submitted with ``pure=False`` so units with equal
-arguments are never merged.  Ctrl-C terminates the pool's processes (their files
+tables, responses, scene) are sent once per worker: pickled once to a private
+temporary file that each pool worker loads on its first unit (so the pool can be
+started, and its workers import the library, while the runner is still planning;
+large initializer arguments would also make the spawned workers start one after
+the other, each blocking the parent until it has read them), or scattered to every
+Dask worker (``broadcast=True``) and passed as futures.  Dask tasks are submitted
+with ``pure=False`` so units with equal arguments are never merged.  Ctrl-C terminates the pool's processes (their files
 are written atomically, so nothing partial is left visible).  This module does not
 decide what to render.
 """
@@ -15,7 +18,9 @@ decide what to render.
 from __future__ import annotations
 
 import os
+import pickle
 import queue
+import tempfile
 import uuid
 
 from ..errors import MagretinaError
@@ -47,7 +52,12 @@ class InlineExecutor:
 
 
 class LocalExecutor:
-    """A ``multiprocessing`` pool of ``jobs`` spawned worker processes."""
+    """A ``multiprocessing`` pool of ``jobs`` spawned worker processes.
+
+    ``resources`` may be given later with :meth:`set_resources` (before the first
+    ``submit``): :func:`start_local` starts the pool early so that worker start-up
+    overlaps the runner's planning.
+    """
 
     name = "local"
 
@@ -56,10 +66,21 @@ class LocalExecutor:
 
         # "spawn": forking a parent that already runs numba's thread pool is unsafe.
         self.pool = mp.get_context("spawn").Pool(
-            jobs, initializer=worker.init_worker, initargs=(resources, numba_threads))
+            jobs, initializer=worker.init_worker, initargs=(numba_threads,))
         self.q = queue.Queue()
+        self.res_path = None
+        self.closed = False
+        if resources is not None:
+            self.set_resources(resources)
+
+    def set_resources(self, resources):
+        fd, path = tempfile.mkstemp(prefix="magretina-resources-", suffix=".pkl")
+        self.res_path = path
+        with os.fdopen(fd, "wb") as fh:
+            pickle.dump(resources, fh, protocol=pickle.HIGHEST_PROTOCOL)
 
     def submit(self, kind, task):
+        task = dict(task, resources_path=self.res_path)
         self.pool.apply_async(_FUNCS[kind], (task,), callback=lambda r: self.q.put((True, r)),
                               error_callback=lambda e: self.q.put((False, e)))
 
@@ -74,11 +95,22 @@ class LocalExecutor:
             return r
 
     def close(self, cancel=False):
-        if cancel:
+        if self.closed:
+            return
+        self.closed = True
+        try:
+            # The runner closes only after it has collected every unit's result, so the
+            # workers are idle: ending them at once is safe (each file was written
+            # atomically and reported before its unit returned) and saves the second
+            # or so that a graceful close-and-join of spawned numba workers takes.
             self.pool.terminate()
-        else:
-            self.pool.close()
-        self.pool.join()
+            self.pool.join()
+        finally:
+            if self.res_path is not None:
+                try:
+                    os.remove(self.res_path)
+                except OSError:
+                    pass
 
 
 class DaskExecutor:
@@ -130,7 +162,17 @@ class DaskExecutor:
                 self.cluster.close()
 
 
-def make_executor(kind, resources, jobs, scheduler=None):
+def _threads_per_worker(jobs):
+    return max(1, (os.cpu_count() or 1) // jobs)
+
+
+def start_local(jobs):
+    """Start the local pool before its resources are known (see :class:`LocalExecutor`)."""
+    return LocalExecutor(None, jobs, _threads_per_worker(jobs))
+
+
+def make_executor(kind, resources, jobs, scheduler=None, started=None):
+    """The executor for ``kind``; ``started`` is a pool from :func:`start_local` to use."""
     if kind not in EXECUTORS:
         raise MagretinaError(f"--executor {kind!r}: allowed {', '.join(EXECUTORS)}")
     if jobs < 1:
@@ -139,8 +181,10 @@ def make_executor(kind, resources, jobs, scheduler=None):
         return DaskExecutor(resources, jobs, scheduler)
     if scheduler:
         raise MagretinaError("--scheduler needs --executor dask")
-    cores = os.cpu_count() or 1
-    threads = max(1, cores // jobs)
+    threads = _threads_per_worker(jobs)
     if jobs == 1:
         return InlineExecutor(resources, threads)
+    if started is not None:
+        started.set_resources(resources)
+        return started
     return LocalExecutor(resources, jobs, threads)

@@ -61,11 +61,16 @@ class MetricContext:
         NaN where no eye sees.  ``view`` is a view name of the study or a view object."""
         key = ("view", view if isinstance(view, str) else id(view))
         if key not in self._cache:
-            from ..pipeline import render_pattern
+            from ..pipeline import _signal_map, render_pattern
 
             v = self.views[view] if isinstance(view, str) else view
-            f = render_pattern(self.field, self.pose, self.layout, self.response, v)
-            self._cache[key] = 1.0 - f if self.product == "triplet" else f
+            if self.product == "singlet" and self.inputs is not None:
+                # The frame's own kernel inputs are what render_pattern would prepare
+                # again (same field, pose, layout, response, singlet): same values.
+                self._cache[key] = _signal_map(self.inputs, v, self.layout, self.inputs.lut)
+            else:
+                f = render_pattern(self.field, self.pose, self.layout, self.response, v)
+                self._cache[key] = 1.0 - f if self.product == "triplet" else f
         return self._cache[key]
 
     def eye_signal(self, eye) -> np.ndarray:

@@ -134,11 +134,28 @@ def run_study(study_path, out_dir=None, jobs=1, executor="local", scheduler=None
     dry : print the plan only
     force : allow replacing another study's folder
     """
-    from tqdm import tqdm
-
     stream = stream or sys.stdout
     t0 = time.perf_counter()
     study = load_study(study_path)
+    started = None
+    if not dry and executor == "local" and not scheduler and jobs > 1:
+        from .executors import start_local
+
+        # Workers spawn and import the library while this process plans; they get the
+        # resources with their first unit.
+        started = start_local(jobs)
+    try:
+        return _run(study, out_dir, jobs, executor, scheduler, dry, force, progress, stream,
+                    chunk_frames, t0, started)
+    finally:
+        if started is not None:
+            started.close(cancel=True)
+
+
+def _run(study, out_dir, jobs, executor, scheduler, dry, force, progress, stream, chunk_frames,
+         t0, started):
+    from tqdm import tqdm
+
     plan = make_plan(study)
     if out_dir is None:
         from .expand import snake
@@ -199,10 +216,15 @@ def run_study(study_path, out_dir=None, jobs=1, executor="local", scheduler=None
                 entries[shot.index] = prev
                 continue
         st.rendered = len(todo)
-        size = chunk_frames or max(1, min(32, math.ceil(max(1, len(todo)) / (2 * jobs))))
-        for k in range(0, len(todo), size):
-            units.append((shot, todo[k:k + size]))
-        st.chunks_left = math.ceil(len(todo) / size) if todo else 0
+        # About 32 chunks per worker for a long sequence, so that the workers finish
+        # within a fraction of a second of each other (a unit costs well under a
+        # millisecond besides its frames); equal sizes (to within one).
+        size = chunk_frames or max(1, min(32, math.ceil(max(1, len(todo)) / (32 * jobs))))
+        n_chunks = math.ceil(len(todo) / size) if todo else 0
+        bounds = [len(todo) * k // n_chunks for k in range(n_chunks + 1)] if todo else [0]
+        for a, b in zip(bounds[:-1], bounds[1:]):
+            units.append((shot, todo[a:b]))
+        st.chunks_left = n_chunks
 
     n_frames_todo = sum(len(u[1]) for u in units)
     shots_todo = [s for s in plan.shots if s.index not in entries]
@@ -219,7 +241,7 @@ def run_study(study_path, out_dir=None, jobs=1, executor="local", scheduler=None
         if shots_todo:
             from .executors import make_executor
 
-            ex = make_executor(executor, resources, jobs, scheduler)
+            ex = make_executor(executor, resources, jobs, scheduler, started=started)
             outstanding = 0
             for shot, frames in units:
                 ex.submit("render", _chunk_task(plan, shot, frames, out_dir))

@@ -7,7 +7,8 @@ reads the shot's 8-bit frames back and writes its previews and videos.  Both are
 plain functions of picklable arguments so a process pool and Dask run the same
 code and produce the same bytes.  The shared :class:`~.build.Resources` come
 either as an argument (Dask passes a scattered future) or from the per-process
-cache filled by :func:`init_worker` (the local pool).  No decisions about what to
+cache, filled on a worker's first unit from the pickle file named in the task (the
+local pool, see :mod:`.executors`).  No decisions about what to
 render are made here (see :mod:`.runner`).
 """
 
@@ -20,15 +21,32 @@ import numpy as np
 _RESOURCES: dict = {}
 
 
-def init_worker(resources: dict, numba_threads: int | None):
-    """Process-pool initializer: keep the shared resources, set numba's thread count,
-    and leave Ctrl-C to the parent (which terminates the pool)."""
+def init_worker(numba_threads: int | None):
+    """Process-pool initializer: set numba's thread count, leave Ctrl-C to the parent
+    (which terminates the pool), and import what every unit needs while the parent
+    is still planning."""
     import signal
 
     signal.signal(signal.SIGINT, signal.SIG_IGN)
     _RESOURCES.clear()
-    _RESOURCES.update(resources)
     _set_threads(numba_threads)
+    import imageio.v3  # noqa: F401
+    import PIL.PngImagePlugin  # noqa: F401
+
+    from .. import composite, io, pipeline  # noqa: F401
+    from . import build, metrics  # noqa: F401
+
+
+def _resources(task, resources):
+    if resources is not None:
+        return resources
+    key = task["res_key"]
+    if key not in _RESOURCES:
+        import pickle
+
+        with open(task["resources_path"], "rb") as fh:
+            _RESOURCES.update(pickle.load(fh))
+    return _RESOURCES[key]
 
 
 def _set_threads(n):
@@ -51,7 +69,7 @@ def render_chunk(task: dict, resources=None) -> dict:
     from . import metrics as metrics_mod
     from .outputs import sha256_bytes
 
-    res = resources if resources is not None else _RESOURCES[task["res_key"]]
+    res = _resources(task, resources)
     _set_threads(task.get("numba_threads"))
     out_dir = task["out_dir"]
     records, metrics = [], {}
