@@ -466,12 +466,10 @@ DEFAULT_TOL = 1e-6
 
 
 def applicable(pair: RadicalPair):
-    """(ok, reason): equal rates and no inter-radical coupling."""
-    if not pair.equal_rates:
-        return False, f"needs equal rates, got k_s = {pair.k_s:g}, k_t = {pair.k_t:g} s^-1"
-    if pair.coupled:
-        return False, "needs uncoupled radicals (exchange_mT = 0 and no dipolar_mT)"
-    return True, ""
+    """(ok, reason): the separable solver's domain (equal rates, no inter-radical coupling)."""
+    from . import separable
+
+    return separable.applicable(pair)
 
 
 def yields(pair: RadicalPair, fields_T, progress=None):
