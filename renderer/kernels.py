@@ -372,32 +372,6 @@ def _signal(vx, vy, vz, R_eye_view, eye_params, b_eye, luts, cubes, pick):
 
 
 @njit(parallel=True, cache=True, fastmath=FASTMATH)
-def _pattern_equirect(cos_el, sin_el, cos_az, sin_az, R_head_view, R_eye_view, eye_params,
-                     b_eye, lut, cubes, pick, out):
-    """Signal on an equirectangular grid whose directions are in the view frame.
-
-    ``out`` (H, W) float64 is filled; NaN where no eye sees.  Computed by the row-tile
-    passes (see :func:`_tile_signal`).
-    """
-    H = cos_el.shape[0]
-    W = cos_az.shape[0]
-    chord = _block_chords(cos_az, sin_az)
-    nblk = (H + ROW_BLOCK - 1) // ROW_BLOCK
-    for blk in prange(nblk):
-        buf = np.empty((11, TILE))
-        ibuf = np.empty((2, TILE), dtype=np.int64)
-        for i in range(blk * ROW_BLOCK, min(H, (blk + 1) * ROW_BLOCK)):
-            for j0 in range(0, W, TILE):
-                j1 = min(W, j0 + TILE)
-                _tile_signal(cos_el[i], -sin_el[i], cos_az[j0:j1], sin_az[j0:j1],
-                             chord[j0 // SUB:], R_eye_view, eye_params, b_eye, lut, cubes, pick,
-                             buf, ibuf)
-                for j in range(j0, j1):
-                    k = buf[8, j - j0]
-                    out[i, j] = buf[7, j - j0] / k if k > 0.0 else np.nan
-
-
-@njit(parallel=True, cache=True, fastmath=FASTMATH)
 def _pattern_dirs(dirs, R_head_view, R_eye_view, eye_params, b_eye, lut, cubes, pick, out):
     """Signal for explicit unit directions ``dirs`` (N, 3) in the view frame -> ``out`` (N,)."""
     for n in prange(dirs.shape[0]):
@@ -456,121 +430,314 @@ def _modulate(px, s, inv_mean, gain, outside, out_px):
 
 
 # ---------------------------------------------------------------------------
-# row-tile composites of equirectangular views
+# row passes of equirectangular views
 # ---------------------------------------------------------------------------
 # The per-pixel kernels above branch per eye (early reject, visibility band, mode), which
-# keeps LLVM from vectorising them.  For the composited equirectangular views (world
-# panorama, and the signal of resampled views) the work is instead done per tile of a row and per eye in simple, branch-free
-# loops over buffers that stay in L1 cache: selects replace branches, loop-invariant
-# choices (mode, geometry, full sphere) are taken once per tile, and the rare directions
-# the fast visibility test cannot decide are settled afterwards by the exact scalar
-# ``_visible``.  ``error_model="numpy"``: numba's default checks every float division for
-# zero (to raise ZeroDivisionError), and that branch alone stops vectorisation; no divisor
-# here can be zero (guarded by selects), so nothing observable changes.  Same maths as
-# ``_signal`` (and its NumPy twin), only the order differs; the tests compare both.
+# keeps LLVM from vectorising them.  Equirectangular views (world panorama, the signal of
+# resampled views, patterns) are instead computed a row at a time:
+#
+# 1. Visibility is decided per eye for whole blocks of SUB columns where that can be
+#    proved (:func:`_row_decide`, one vectorised loop over the row's blocks), and pixel
+#    by pixel only in the few blocks the field-of-view boundary crosses
+#    (:func:`_row_pixels`).
+# 2. Over the runs of blocks an eye sees, in chunks of CHUNK columns that stay in L1
+#    cache: the receptor axis, cos θ and the table index in simple loops that LLVM
+#    vectorises; the table reads in a separate scalar loop (this CPU family has no
+#    vector gathers, and one read in a loop stops it vectorising); then the values are
+#    added up per block, with the per-pixel visibility only where a block is undecided.
+# 3. Eyes whose receptor axis is the view direction itself (chief-ray geometry: nodal
+#    point at the retina's centre, or the chief-ray alignment) and that read the same
+#    table give the same value wherever they see: cos θ = v·b is the same in every eye's
+#    frame.  When every eye in use is such an eye (the common case), the row's signal is
+#    that one value wherever any of them sees (:func:`_row_shared`): the mean of equal
+#    values is the value.
+#
+# ``error_model="numpy"``: numba's default checks every float division for zero (to raise
+# ZeroDivisionError), and that branch alone stops vectorisation; no divisor here can be
+# zero (guarded by selects), so nothing observable changes.  Same maths as ``_signal``
+# (and its NumPy twin), only the order differs; the tests compare both.
 
-#: Margin (rad) of the float32 fast angle of the tile pass.  Its error: float32 rounding
-#: of s², √, |u_x| and the quotient (≈ 4·2⁻²⁴ relative in t, ≤ 2.4e-7 rad in atan t),
-#: Horner evaluation in float32 (≲ 10·2⁻²⁴ ≈ 6e-7 rad), coefficients rounded to float32
-#: (Σ|c_k|·2⁻²⁴ ≈ 1.1e-7) and the fit (3.8e-8): under 1e-6 rad, a tenth of the margin.
-#: Directions within it of the boundary (1.5e-5 of the pixel-eye pairs of bench/frame.py)
-#: go to the exact test.  (s² underflowing in float32 only shrinks t and its error.)
-ATAN32_MARGIN = 1e-5
-_F0, _F1, _F2, _F3, _F4, _F5, _F6, _F7 = (np.float32(c) for c in ATAN_COEFFS)
-
-
-@njit(cache=True, inline="always", fastmath=FASTMATH)
-def _fast_atan32(x):
-    """``_fast_atan`` in float32 (x float32)."""
-    z = x * x
-    p = _F5 + z * (_F6 + z * _F7)
-    return x * (_F0 + z * (_F1 + z * (_F2 + z * (_F3 + z * (_F4 + z * p)))))
-
-
-#: Columns per tile: the eleven float64 tile buffers take 11·256·8 B = 22 KiB (L1-resident).
-TILE = 256
-#: Columns per visibility block (see _tile_visibility); TILE is a multiple of it.
+#: Columns per visibility block, and per sub-block of the blocks left undecided (SUB is a
+#: multiple of SUB2).
 SUB = 64
-#: Rows per parallel work item, so the tile buffers are allocated once per block.
+SUB2 = 4
+#: Columns per chunk of the shared group's value pass (a whole row at the usual widths:
+#: every call of a compiled helper costs of the order of 100 ns, more than the cache
+#: misses saved by smaller chunks), and of the per-eye passes (whose ten float64 buffers
+#: then take 20 KiB and stay in L1 cache).
+CHUNK = 4096
+EYE_CHUNK = 256
+#: Rows per parallel work item, so the row buffers are allocated once per block.
 ROW_BLOCK = 8
-_PI = math.pi
-_HALF_PI = 0.5 * math.pi
+
+#: Rows of the float64 row buffer (then one row of per-pixel visibility per eye).
+RB_UX, RB_UY, RB_UZ, RB_A, RB_B, RB_C, RB_E1, RB_E2, RB_VAL, RB_FRAC, RB_ACC, RB_CNT = range(12)
+_NROW = 12
 
 
 @njit(cache=True)
-def _block_chords(cos_az, sin_az):
-    """Per block of SUB columns: the largest distance of a column's (cos az, sin az) from
-    the block's centre column's (centre = first + (length − 1) // 2)."""
+def _block_bounds(cos_az, sin_az, size):
+    """Per block of ``size`` columns (centre = first + (length − 1) // 2), (4, nblocks):
+    row 0 the largest distance of a column's (cos az, sin az) from the centre column's,
+    row 1 the largest angle between them, 2·asin(row 0 / 2), rows 2 and 3 the centre
+    column's cos az and sin az.
+
+    At elevation el the directions (cos el·cos az, cos el·sin az, sin el) of a block lie
+    within |cos el|·row 0 of the centre's, and within |cos el|·row 1 in angle (asin x / x
+    grows with x, so scaling the chord by |cos el| ≤ 1 scales the angle by at most that).
+    """
     W = cos_az.shape[0]
-    out = np.empty((W + SUB - 1) // SUB)
-    for b0 in range(0, W, SUB):
-        b1 = min(W, b0 + SUB)
+    out = np.empty((4, (W + size - 1) // size))
+    for b0 in range(0, W, size):
+        b1 = min(W, b0 + size)
         jc = b0 + (b1 - b0 - 1) // 2
         m = 0.0
         for j in range(b0, b1):
             dc = cos_az[j] - cos_az[jc]
             ds = sin_az[j] - sin_az[jc]
             m = max(m, math.sqrt(dc * dc + ds * ds))
-        out[b0 // SUB] = m
+        k = b0 // size
+        out[0, k] = m
+        out[1, k] = 2.0 * math.asin(min(1.0, 0.5 * m))
+        out[2, k] = cos_az[jc]
+        out[3, k] = sin_az[jc]
     return out
 
 
-@njit(cache=True, fastmath=FASTMATH, error_model="numpy")
-def _tile_visibility(ce, vz, caz, saz, chord, R, p, ux, uy, uz, st):
-    """Eye-frame directions of one tile (``caz``, ``saz`` its column tables) and their
-    visibility state ``st``: 1 seen, 0 not, 2 left to the exact test; returns the number
-    of 2s and of 1s.
+#: Slots of the per-eye visibility constants of :func:`_eye_consts`.
+K_CIN, K_COUT, K_SIGN, K_ITEM, K_DNAS, K_IVEN, K_DDOR, K_SLOPE, K_FULL = range(9)
 
-    As in ``_visible``, a fast angle decides unless it lies within its error margin of the
-    boundary (here the float32 angle and ATAN32_MARGIN), so every decision taken equals
-    the exact atan2 test's; the branch-free atan form (min/max ratio, then reflections)
-    is ``fast_angle``'s three cases.  On-axis directions (s² = 0) go to ``_visible``.
 
-    Blocks of SUB columns lie within ``chord[b]`` (the largest distance of a block's
-    (cos az, sin az) from its centre pixel's) of that pixel, so their u_x is within
-    cos(el)·|(R00, R01)|·chord[b] of the centre's: a block wholly inside the smallest or
-    outside the largest half-width is settled without the angle (most of the sphere).
+@njit(cache=True)
+def _fov_slope(p):
+    """An upper bound of |dw/dφ| for the half-width w(φ) of ``_visible``.
+
+    In a quadrant with half-widths a (nasal or temporal) and b (dorsal or ventral),
+    w(φ)⁻² = cos²φ/a² + sin²φ/b², so dw/dφ = w³·cos φ·sin φ·(1/a² − 1/b²), at most
+    max(a, b)³·|1/a² − 1/b²|/2 in size.  w is continuous where quadrants meet (it is a
+    at φ = 0 and b at φ = ±π/2 on both sides), so the largest quadrant bound holds for
+    the whole circle.
     """
-    n = caz.shape[0]
-    r00, r01, r02 = R[0, 0], R[0, 1], R[0, 2]
-    full = p[P_FULL] != 0.0
-    # a full-sphere eye sees everything: every direction passes the inner-cone test
-    cin = -np.inf if full else p[P_COS_IN]
-    cout = p[P_COS_OUT]
-    sg = p[P_SIGN]
-    # 1/w² per quadrant, picked by adding a difference rather than by a select: LLVM turns
-    # a select of two reciprocals into a division per pixel.  The rounding this adds to k
-    # (~1e-16 relative) is far inside ATAN_MARGIN, so the decisions do not change.
-    i_tem = 1.0 / (p[P_TEMPORAL] * p[P_TEMPORAL])
-    d_nas = 1.0 / (p[P_NASAL] * p[P_NASAL]) - i_tem
-    i_ven = 1.0 / (p[P_VENTRAL] * p[P_VENTRAL])
-    d_dor = 1.0 / (p[P_DORSAL] * p[P_DORSAL]) - i_ven
-    rho = abs(ce) * math.sqrt(r00 * r00 + r01 * r01)
-    undecided = 0
-    seen = 0
-    for b0 in range(0, n, SUB):
-        b1 = min(n, b0 + SUB)
-        jc = b0 + (b1 - b0 - 1) // 2
-        xc = r00 * (ce * caz[jc]) + r01 * (ce * saz[jc]) + r02 * vz
-        # 1e-12 covers the rounding of the computed u_x (~1e-16)
-        bnd = rho * chord[b0 // SUB] + 1e-12
-        if xc - bnd >= cin or xc + bnd < cout:
-            whole = 1.0 if xc - bnd >= cin else 0.0
-            _block_rotate(ce, vz, caz[b0:b1], saz[b0:b1], R, ux[b0:b1], uy[b0:b1], uz[b0:b1],
-                          st[b0:b1], whole)
-            if whole == 1.0:
-                seen += b1 - b0
-        else:
-            # a separate function: LLVM vectorises the loop only outside the block loop
-            u, v = _block_band(ce, vz, caz[b0:b1], saz[b0:b1], R, cin, cout, sg, i_tem,
-                               d_nas, i_ven, d_dor, ux[b0:b1], uy[b0:b1], uz[b0:b1], st[b0:b1])
-            undecided += u
-            seen += v
-    return undecided, seen
+    d = 0.0
+    for a in (p[P_NASAL], p[P_TEMPORAL]):
+        for b in (p[P_DORSAL], p[P_VENTRAL]):
+            m = max(a, b)
+            d = max(d, m * m * m * 0.5 * abs(1.0 / (a * a) - 1.0 / (b * b)))
+    return d
+
+
+@njit(cache=True)
+def _eye_consts(eye_params):
+    """Per eye, the constants of the row visibility test, (E, 9) (slots K_*): cos of the
+    smallest and largest half-width, nasal sign, 1/w² per quadrant as a base and a
+    difference (picked by adding the difference rather than by a select: LLVM turns a
+    select of two reciprocals into a division per pixel), :func:`_fov_slope`, and the
+    full-sphere flag (whose inner-cone cosine is then −inf: everything passes it)."""
+    E = eye_params.shape[0]
+    out = np.empty((E, 9))
+    for e in range(E):
+        p = eye_params[e]
+        full = p[P_FULL] != 0.0
+        out[e, K_CIN] = -np.inf if full else p[P_COS_IN]
+        out[e, K_COUT] = p[P_COS_OUT]
+        out[e, K_SIGN] = p[P_SIGN]
+        i_tem = 1.0 / (p[P_TEMPORAL] * p[P_TEMPORAL])
+        i_ven = 1.0 / (p[P_VENTRAL] * p[P_VENTRAL])
+        out[e, K_ITEM] = i_tem
+        out[e, K_DNAS] = 1.0 / (p[P_NASAL] * p[P_NASAL]) - i_tem
+        out[e, K_IVEN] = i_ven
+        out[e, K_DDOR] = 1.0 / (p[P_DORSAL] * p[P_DORSAL]) - i_ven
+        out[e, K_SLOPE] = _fov_slope(p)
+        out[e, K_FULL] = 1.0 if full else 0.0
+    return out
+
+
+#: cos(√t) ≈ Σ c_k t^k on 0 ≤ t ≤ π² (degree-9 Chebyshev interpolant, converted to powers
+#: of t, made for this module); |error| ≤ 9e-15, checked on a dense grid in tests/kernels.
+COS_SQRT_COEFFS = (0.9999999999999956, -0.49999999999989997, 0.0416666666663069,
+                   -0.0013888888884010747, 2.4801586970278462e-05, -2.7557306391471175e-07,
+                   2.087645547808322e-09, -1.14663654715549e-11, 4.7409456845093656e-14,
+                   -1.372600639681756e-16)
+#: Margin inside which the per-pixel test of :func:`_block_pixels` defers to the exact one:
+#: far above the polynomial's error and the rounding of u_x and w² (~1e-15).
+COS_MARGIN = 1e-9
+_C0, _C1, _C2, _C3, _C4, _C5, _C6, _C7, _C8, _C9 = COS_SQRT_COEFFS
+
+
+@njit(cache=True, inline="always", fastmath=FASTMATH)
+def _cos_sqrt(t):
+    p = _C7 + t * (_C8 + t * _C9)
+    return _C0 + t * (_C1 + t * (_C2 + t * (_C3 + t * (_C4 + t * (_C5 + t * (_C6 + t * p))))))
 
 
 @njit(cache=True, fastmath=FASTMATH, error_model="numpy")
-def _block_rotate(ce, vz, caz, saz, R, ux, uy, uz, st, whole):
+def _row_decide(ce, vz, chord, ang, cc, sc, R, kc, dec):
+    """Visibility of whole blocks of one row for one eye: ``dec[b]`` 1.0 every pixel of
+    block b seen, 0.0 none, −1.0 undecided.  One branch-free loop over the blocks.
+
+    ``chord``, ``ang``, ``cc``, ``sc``: the rows of :func:`_block_bounds` (for the blocks
+    at hand); ``kc`` the eye's :func:`_eye_consts` row.  First the cones: a block's u_x
+    lies within rho·chord (rho = |cos el|·|(R00, R01)|) of its centre's, and u_x ≥ cos of
+    the smallest half-width is seen, u_x < cos of the largest is not.  Then the boundary,
+    in cosines as in :func:`_block_pixels`: with α the angle from the optic axis and φ
+    the meridian, a pixel is seen iff g = cos α − cos w(φ) ≥ 0.  Every pixel lies within
+    δ = |cos el|·ang of the centre in angle, so its α within δ of the centre's and its φ
+    within δ/sin α_min (the sphere's metric is dα² + sin²α dφ², and sin α ≥ sin α_c − δ
+    along the way); cos is 1-Lipschitz, so g differs from the centre's by at most
+    δ·(1 + slope/(sin α_c − δ)), slope from :func:`_fov_slope`.  A centre value beyond
+    that (plus COS_MARGIN) settles the block; near the optic axis or its opposite pole
+    (sin α_c − δ ≤ 1e-3) it is left to the pixels unless a cone settles it.
+    """
+    nb = dec.shape[0]
+    if kc[K_FULL] != 0.0:
+        for b in range(nb):
+            dec[b] = 1.0
+        return
+    r00, r01, r02 = R[0, 0], R[0, 1], R[0, 2]
+    r10, r11, r12 = R[1, 0], R[1, 1], R[1, 2]
+    r20, r21, r22 = R[2, 0], R[2, 1], R[2, 2]
+    cin = kc[K_CIN]
+    cout = kc[K_COUT]
+    sg = kc[K_SIGN]
+    i_tem = kc[K_ITEM]
+    d_nas = kc[K_DNAS]
+    i_ven = kc[K_IVEN]
+    d_dor = kc[K_DDOR]
+    slope = kc[K_SLOPE]
+    ace = abs(ce)
+    rho = ace * math.sqrt(r00 * r00 + r01 * r01)
+    for b in range(nb):
+        vx = ce * cc[b]
+        vy = ce * sc[b]
+        ux = r00 * vx + r01 * vy + r02 * vz
+        uy = r10 * vx + r11 * vy + r12 * vz
+        uz = r20 * vx + r21 * vy + r22 * vz
+        bd = rho * chord[b] + 1e-12  # 1e-12 covers the rounding of the computed u_x
+        h = sg * uy
+        v = -uz
+        hh = h * h
+        vv = v * v
+        s2 = hh + vv
+        delta = ace * ang[b]
+        smin = math.sqrt(s2) - delta
+        ok = smin > 1e-3
+        k = hh * (i_tem + d_nas * (h >= 0.0)) + vv * (i_ven + d_dor * (v >= 0.0))
+        g = ux - _cos_sqrt(s2 / (k if k > 0.0 else 1.0))
+        lim = delta * (1.0 + slope / (smin if ok else 1.0)) + COS_MARGIN
+        d = 1.0 if g > lim else (0.0 if g < -lim else -1.0)
+        d = d if ok else -1.0
+        d = 1.0 if ux - bd >= cin else (0.0 if ux + bd < cout else d)
+        dec[b] = d
+
+
+@njit(cache=True, fastmath=FASTMATH, error_model="numpy")
+def _block_pixels(ce, vz, caz, saz, R, kc, st):
+    """The per-pixel visibility test of a block the boundary crosses, as one vectorised
+    loop: ``st`` 1 seen, 0 not, 2 left to the exact test; returns the number of 2s.
+
+    ``_visible``'s test α ≤ w(φ) (α the angle from the optic axis, w the half-width of
+    the meridian, both in [0, π]) is taken in cosines, where it needs neither the angle
+    nor a square root: u_x = cos α ≥ cos w, and cos w = cos √(w²) with w² = s²/k is
+    :func:`_cos_sqrt` of w².  Since |cos α − cos w| ≤ |α − w|, a decision taken outside
+    COS_MARGIN is that of the exact test; the rest, and on-axis directions (s² = 0),
+    are left to it.  The cones come first, as in ``_visible``.
+    """
+    r00, r01, r02 = R[0, 0], R[0, 1], R[0, 2]
+    r10, r11, r12 = R[1, 0], R[1, 1], R[1, 2]
+    r20, r21, r22 = R[2, 0], R[2, 1], R[2, 2]
+    cin = kc[K_CIN]
+    cout = kc[K_COUT]
+    sg = kc[K_SIGN]
+    i_tem = kc[K_ITEM]
+    d_nas = kc[K_DNAS]
+    i_ven = kc[K_IVEN]
+    d_dor = kc[K_DDOR]
+    undecided = 0
+    for j in range(caz.shape[0]):
+        vx = ce * caz[j]
+        vy = ce * saz[j]
+        x = r00 * vx + r01 * vy + r02 * vz
+        y = r10 * vx + r11 * vy + r12 * vz
+        z = r20 * vx + r21 * vy + r22 * vz
+        h = sg * y
+        v = -z
+        hh = h * h
+        vv = v * v
+        s2 = hh + vv
+        k = hh * (i_tem + d_nas * (h >= 0.0)) + vv * (i_ven + d_dor * (v >= 0.0))
+        cw = _cos_sqrt(s2 / (k if k > 0.0 else 1.0))
+        band = 1.0 if x >= cw + COS_MARGIN else (0.0 if x < cw - COS_MARGIN else 2.0)
+        band = 2.0 if s2 == 0.0 else band
+        sj = 1.0 if x >= cin else (0.0 if x < cout else band)
+        st[j] = sj
+        undecided += sj == 2.0
+    return undecided
+
+
+@njit(cache=True, inline="always", fastmath=FASTMATH, error_model="numpy")
+def _row_pixels(ce, vz, cos_az, sin_az, bnd2, R, p, kc, dec, vb, ib, pix):
+    """Per-pixel visibility ``pix`` (1.0/0.0) of the undecided blocks of one row and eye.
+
+    The undecided blocks' sub-blocks of SUB2 columns are gathered and decided as the
+    blocks were, in one call of :func:`_row_decide` on their bounds ``bnd2``; the pixels
+    of the sub-blocks still undecided are gathered for one call of
+    :func:`_block_pixels`, then the exact ``_visible`` settles the few it leaves (the
+    NumPy twin's test).  ``vb`` (8, ≥ W) float64 and ``ib`` (2, ≥ W) int64 are scratch.
+    """
+    W = cos_az.shape[0]
+    per = SUB // SUB2
+    nsub = bnd2.shape[1]
+    sidx = ib[0]
+    m = 0
+    for b in range(dec.shape[0]):
+        if dec[b] != -1.0:
+            continue
+        for t in range(b * per, min(nsub, (b + 1) * per)):
+            vb[0, m] = bnd2[0, t]
+            vb[1, m] = bnd2[1, t]
+            vb[2, m] = bnd2[2, t]
+            vb[3, m] = bnd2[3, t]
+            sidx[m] = t
+            m += 1
+    if m == 0:
+        return
+    sd = vb[4, :m]
+    _row_decide(ce, vz, vb[0, :m], vb[1, :m], vb[2, :m], vb[3, :m], R, kc, sd)
+    pidx = ib[1]
+    q = 0
+    for t in range(m):
+        c0 = sidx[t] * SUB2
+        c1 = min(W, c0 + SUB2)
+        d = sd[t]
+        if d != -1.0:
+            for j in range(c0, c1):
+                pix[j] = d
+            continue
+        for j in range(c0, c1):
+            vb[5, q] = cos_az[j]
+            vb[6, q] = sin_az[j]
+            pidx[q] = j
+            q += 1
+    if q == 0:
+        return
+    st = vb[7, :q]
+    _block_pixels(ce, vz, vb[5, :q], vb[6, :q], R, kc, st)
+    for t in range(q):
+        j = pidx[t]
+        v = st[t]
+        if v == 2.0:
+            vx = ce * cos_az[j]
+            vy = ce * sin_az[j]
+            x = R[0, 0] * vx + R[0, 1] * vy + R[0, 2] * vz
+            y = R[1, 0] * vx + R[1, 1] * vy + R[1, 2] * vz
+            z = R[2, 0] * vx + R[2, 1] * vy + R[2, 2] * vz
+            v = 1.0 if _visible(x, y, z, p) else 0.0
+        pix[j] = v
+
+
+@njit(cache=True, fastmath=FASTMATH, error_model="numpy")
+def _tile_rotate(ce, vz, caz, saz, R, ux, uy, uz):
+    """Eye-frame directions of a run of columns of one row."""
     r00, r01, r02 = R[0, 0], R[0, 1], R[0, 2]
     r10, r11, r12 = R[1, 0], R[1, 1], R[1, 2]
     r20, r21, r22 = R[2, 0], R[2, 1], R[2, 2]
@@ -580,53 +747,6 @@ def _block_rotate(ce, vz, caz, saz, R, ux, uy, uz, st, whole):
         ux[j] = r00 * vx + r01 * vy + r02 * vz
         uy[j] = r10 * vx + r11 * vy + r12 * vz
         uz[j] = r20 * vx + r21 * vy + r22 * vz
-        st[j] = whole
-
-
-@njit(cache=True, fastmath=FASTMATH, error_model="numpy")
-def _block_band(ce, vz, caz, saz, R, cin, cout, sg, i_tem, d_nas, i_ven, d_dor, ux, uy, uz, st):
-    """The visibility test of :func:`_tile_visibility` for a block in the band."""
-    r00, r01, r02 = R[0, 0], R[0, 1], R[0, 2]
-    r10, r11, r12 = R[1, 0], R[1, 1], R[1, 2]
-    r20, r21, r22 = R[2, 0], R[2, 1], R[2, 2]
-    undecided = 0
-    seen = 0
-    for j in range(caz.shape[0]):
-        vx = ce * caz[j]
-        vy = ce * saz[j]
-        x = r00 * vx + r01 * vy + r02 * vz
-        y = r10 * vx + r11 * vy + r12 * vz
-        z = r20 * vx + r21 * vy + r22 * vz
-        ux[j] = x
-        uy[j] = y
-        uz[j] = z
-        h = sg * y
-        v = -z
-        hh = h * h
-        vv = v * v
-        s2 = hh + vv
-        k = hh * (i_tem + d_nas * (h >= 0.0)) + vv * (i_ven + d_dor * (v >= 0.0))
-        # the angle in float32 (twice the lanes through the divider, which bounds this
-        # loop), min/max as selects before the one division (inside the quotient, LLVM
-        # speculated a division per branch); the comparison stays float64
-        r = math.sqrt(np.float32(s2))
-        ax = abs(np.float32(x))
-        mn = min(r, ax)
-        mx = max(r, ax)
-        a = np.float64(_fast_atan32(mn / mx))
-        a = _HALF_PI - a if r > ax else a
-        a = _PI - a if x < 0.0 else a
-        hi = a + ATAN32_MARGIN
-        lo = a - ATAN32_MARGIN
-        yes = k * hi * hi <= s2
-        no = (lo > 0.0) & (k * lo * lo > s2)
-        band = 1.0 if yes else (0.0 if no else 2.0)
-        band = 2.0 if s2 == 0.0 else band
-        sj = 1.0 if x >= cin else (0.0 if x < cout else band)
-        st[j] = sj
-        undecided += sj == 2.0
-        seen += sj == 1.0
-    return undecided, seen
 
 
 @njit(cache=True, fastmath=FASTMATH, error_model="numpy")
@@ -672,39 +792,10 @@ def _tile_axis(p, b, ux, uy, uz, A, B, c):
             c[j] = Aj * bx + Bj * (uy[j] * by + uz[j] * bz)
 
 
-@njit(cache=True, fastmath=FASTMATH, error_model="numpy")
-def _tile_lut_index(lut, c, idx, frac):
-    """Cell index and fraction of ``_lut_lookup`` for a tile (clamps as selects).
-
-    At c >= 1 this gives cell n1 - 1 with fraction 1, i.e. lut[n1] up to rounding.  The
-    table reads themselves are left to :func:`_tile_lut_acc`: LLVM does not emit vector
-    gathers for this CPU family, and a gather inside the loop would keep the arithmetic
-    here from vectorising.
-    """
-    n1 = lut.shape[0] - 1
-    top = n1 - 1
-    for j in range(c.shape[0]):
-        x = (c[j] + 1.0) * 0.5 * n1
-        x = 0.0 if x < 0.0 else (float(n1) if x > n1 else x)
-        i = int(x)
-        i = top if i > top else i
-        idx[j] = i
-        frac[j] = x - i
-
-
 @njit(cache=True, inline="always")
 def _lut_at(lut, i, f):
     a = lut[i]
     return a + f * (lut[i + 1] - a)
-
-
-@njit(cache=True, fastmath=FASTMATH, error_model="numpy")
-def _tile_lut_acc(lut, idx, frac, st, acc, cnt):
-    """Axial modes: add the interpolated table value of every seen pixel (scalar reads)."""
-    for j in range(idx.shape[0]):
-        if st[j] == 1.0:
-            acc[j] += _lut_at(lut, idx[j], frac[j])
-            cnt[j] += 1.0
 
 
 @njit(cache=True, fastmath=FASTMATH, error_model="numpy")
@@ -741,18 +832,10 @@ def _tile_ratio_arg(p, c, be1, be2, cb):
 
 
 @njit(cache=True, fastmath=FASTMATH, error_model="numpy")
-def _tile_ratio_acc(lut, idx_a, frac_a, idx_b, frac_b, st, acc, cnt):
-    for j in range(idx_a.shape[0]):
-        if st[j] == 1.0:
-            acc[j] += _lut_at(lut, idx_a[j], frac_a[j]) / _lut_at(lut, idx_b[j], frac_b[j])
-            cnt[j] += 1.0
-
-
-@njit(cache=True, fastmath=FASTMATH, error_model="numpy")
 def _tile_cube_index(p, m, c, be1, be2, idx, fu_out, fv_out):
     """Full-frame modes: ``_cube_lookup``'s face, cell and fractions for a tile, the
     face choice as selects; ``idx`` is the cell's first node in the flattened table
-    (6, m, m).  The reads are in :func:`_tile_cube_acc`."""
+    (6, m, m).  The reads are in :func:`_tile_cube_vals`."""
     cp = p[P_COS_PSI]
     sp = p[P_SIN_PSI]
     mm = m * m
@@ -784,30 +867,267 @@ def _tile_cube_index(p, m, c, be1, be2, idx, fu_out, fv_out):
         fv_out[j] = xv - iv
         idx[j] = f * mm + iu * m + iv
 
+@njit(cache=True)
+def _pair_tables(lut):
+    """Response tables (K, L) as (K, 2L) pairs (value, step to the next value), the last
+    step 0: ``_lut_lookup`` at continuous index x = (c + 1)·(L − 1)/2, clamped to
+    [0, L − 1], is then pair[2i] + (x − i)·pair[2i + 1] with i = int(x), the same
+    arithmetic as before (one fewer read per pixel, adjacent in memory)."""
+    K = lut.shape[0]
+    L = lut.shape[1]
+    out = np.empty((K, 2 * L))
+    for k in range(K):
+        for i in range(L - 1):
+            out[k, 2 * i] = lut[k, i]
+            out[k, 2 * i + 1] = lut[k, i + 1] - lut[k, i]
+        out[k, 2 * L - 2] = lut[k, L - 1]
+        out[k, 2 * L - 1] = 0.0
+    return out
+
 
 @njit(cache=True, fastmath=FASTMATH, error_model="numpy")
-def _tile_cube_acc(flat, m, idx, fu, fv, st, acc, cnt):
+def _tile_lut_x(n1, c, X):
+    """Continuous table index (c + 1)·n1/2 clamped to [0, n1] (n1 = L − 1)."""
+    h = 0.5 * n1
+    top = float(n1)
+    for j in range(c.shape[0]):
+        x = (c[j] + 1.0) * h
+        X[j] = 0.0 if x < 0.0 else (top if x > top else x)
+
+
+@njit(cache=True, fastmath=FASTMATH, error_model="numpy")
+def _tile_cos_view_x(ce, vz, caz, saz, bv, n1, X):
+    """:func:`_tile_cos_view` and :func:`_tile_lut_x` in one loop."""
+    bx, by, bz = bv[0], bv[1], bv[2]
+    cz = vz * bz
+    h = 0.5 * n1
+    top = float(n1)
+    for j in range(caz.shape[0]):
+        x = (ce * (caz[j] * bx + saz[j] * by) + cz + 1.0) * h
+        X[j] = 0.0 if x < 0.0 else (top if x > top else x)
+
+
+@njit(cache=True, fastmath=FASTMATH, error_model="numpy")
+def _tile_pair_vals(pair, X, vals):
+    """Interpolated table values at continuous indices ``X`` (scalar reads)."""
+    for j in range(X.shape[0]):
+        x = X[j]
+        i = int(x)
+        vals[j] = pair[2 * i] + (x - i) * pair[2 * i + 1]
+
+
+@njit(cache=True, fastmath=FASTMATH, error_model="numpy")
+def _tile_pair_ratio(pair, Xa, Xb, vals):
+    """Ratio mode: population A's value over population B's."""
+    for j in range(Xa.shape[0]):
+        xa = Xa[j]
+        ia = int(xa)
+        xb = Xb[j]
+        ib = int(xb)
+        vals[j] = ((pair[2 * ia] + (xa - ia) * pair[2 * ia + 1])
+                   / (pair[2 * ib] + (xb - ib) * pair[2 * ib + 1]))
+
+
+@njit(cache=True, fastmath=FASTMATH, error_model="numpy")
+def _tile_cube_vals(flat, m, idx, fu, fv, vals):
+    """Full-frame modes: bilinear cube-map values at the cells of :func:`_tile_cube_index`."""
     for j in range(idx.shape[0]):
-        if st[j] == 1.0:
-            k0 = idx[j]
-            g = fv[j]
-            t00 = flat[k0]
-            t10 = flat[k0 + m]
-            t = t00 + g * (flat[k0 + 1] - t00)
-            bb = t10 + g * (flat[k0 + m + 1] - t10)
-            acc[j] += t + fu[j] * (bb - t)
-            cnt[j] += 1.0
+        k0 = idx[j]
+        g = fv[j]
+        t00 = flat[k0]
+        t10 = flat[k0 + m]
+        t = t00 + g * (flat[k0 + 1] - t00)
+        bb = t10 + g * (flat[k0 + m + 1] - t10)
+        vals[j] = t + fu[j] * (bb - t)
 
 
 @njit(cache=True, fastmath=FASTMATH, error_model="numpy")
-def _tile_modulate(scene_row, acc, cnt, inv_mean, gain, outside, C, out_row):
-    """``_modulate`` for one tile of flattened (n·C,) rows: seen pixels scaled by
-    1 + gain·(s/mean − 1) and clipped to [0, 1], unseen ones (cnt = 0, s = NaN)
-    multiplied by ``outside``, unclipped."""
+def _tile_add(w, vals, acc, cnt):
+    """acc += value and cnt += 1 where w > 0 (w: 1.0 seen, 0.0 not); the value of an
+    unseen pixel is never used (it may be anything, even inf)."""
+    for j in range(w.shape[0]):
+        seen = w[j] > 0.0
+        acc[j] += vals[j] if seen else 0.0
+        cnt[j] += 1.0 if seen else 0.0
+
+
+@njit(cache=True, fastmath=FASTMATH, error_model="numpy")
+def _tile_add_all(vals, acc, cnt):
+    for j in range(vals.shape[0]):
+        acc[j] += vals[j]
+        cnt[j] += 1.0
+
+
+@njit(cache=True, fastmath=FASTMATH)
+def _eye_values(ce, vz, cos_az, sin_az, R, p, b, pairs, cubes, rb, ib, k0, k1):
+    """One eye's signal values ``rb[RB_VAL, k0:k1]`` over a chunk of columns of a row,
+    whatever the visibility (the caller adds only the seen ones); ``pairs`` from
+    :func:`_pair_tables`."""
+    caz = cos_az[k0:k1]
+    saz = sin_az[k0:k1]
+    xs = rb[RB_UX, k0:k1]
+    ys = rb[RB_UY, k0:k1]
+    zs = rb[RB_UZ, k0:k1]
+    As = rb[RB_A, k0:k1]
+    Bs = rb[RB_B, k0:k1]
+    cs = rb[RB_C, k0:k1]
+    vs = rb[RB_VAL, k0:k1]
+    fs = rb[RB_FRAC, k0:k1]
+    _tile_rotate(ce, vz, caz, saz, R, xs, ys, zs)
+    _tile_axis(p, b, xs, ys, zs, As, Bs, cs)
+    pair = pairs[int(p[P_LUT])]
+    n1 = pair.shape[0] // 2 - 1
+    mode = p[P_MODE]
+    if mode == MODE_AXIAL:
+        _tile_lut_x(n1, cs, fs)
+        _tile_pair_vals(pair, fs, vs)
+        return
+    e1s = rb[RB_E1, k0:k1]
+    e2s = rb[RB_E2, k0:k1]
+    _tile_frame(p, b, xs, ys, zs, As, Bs, cs, e1s, e2s)
+    # the eye-frame direction is spent now: its buffers take the indices
+    if mode == MODE_RATIO:
+        _tile_ratio_arg(p, cs, e1s, e2s, zs)
+        _tile_lut_x(n1, cs, xs)
+        _tile_lut_x(n1, zs, ys)
+        _tile_pair_ratio(pair, xs, ys, vs)
+    else:
+        cube = cubes[int(p[P_CUBE])]
+        mc = cube.shape[2]
+        ia = ib[0, k0:k1]
+        _tile_cube_index(p, mc, cs, e1s, e2s, ia, xs, ys)
+        _tile_cube_vals(cube.reshape(-1), mc, ia, xs, ys, vs)
+
+
+@njit(cache=True, inline="always", fastmath=FASTMATH)
+def _shared_values(ce, vz, cos_az, sin_az, bv, pair, j0, j1, rb, sig):
+    """f(v·bv) over columns [j0, j1) of a row into ``sig``, in chunks of CHUNK."""
+    n1 = pair.shape[0] // 2 - 1
+    for k0 in range(j0, j1, CHUNK):
+        k1 = min(j1, k0 + CHUNK)
+        X = rb[RB_FRAC, k0:k1]
+        _tile_cos_view_x(ce, vz, cos_az[k0:k1], sin_az[k0:k1], bv, n1, X)
+        _tile_pair_vals(pair, X, sig[k0:k1])
+
+
+@njit(cache=True, inline="always", fastmath=FASTMATH)
+def _row_shared(ce, vz, cos_az, sin_az, bv, pair, active, dec, pix, rb, kinds, sig):
+    """The row's signal when every eye in use (``active``) belongs to the shared group:
+    f(v·bv) wherever any of them sees, NaN elsewhere.  Runs of blocks some eye sees are
+    computed in one go; blocks with undecided pixels are masked pixel by pixel."""
+    W = cos_az.shape[0]
+    nb = kinds.shape[0]
+    E = active.shape[0]
+    for b in range(nb):
+        kind = 0  # 0 no eye sees the block, 1 some eye sees all of it, 2 some pixels
+        for e in range(E):
+            if active[e] != 0.0:
+                d = dec[e, b]
+                if d == 1.0:
+                    kind = 1
+                elif d == -1.0 and kind == 0:
+                    kind = 2
+        kinds[b] = kind
+    b = 0
+    while b < nb:
+        b2 = b + 1
+        if kinds[b] == 0:
+            while b2 < nb and kinds[b2] == 0:
+                b2 += 1
+            sig[b * SUB:min(W, b2 * SUB)] = np.nan
+            b = b2
+            continue
+        while b2 < nb and kinds[b2] != 0:
+            b2 += 1
+        _shared_values(ce, vz, cos_az, sin_az, bv, pair, b * SUB, min(W, b2 * SUB), rb, sig)
+        for bb in range(b, b2):
+            if kinds[bb] == 2:
+                # some eye sees part of the block, none all of it: unseen pixels -> NaN
+                for j in range(bb * SUB, min(W, (bb + 1) * SUB)):
+                    seen = False
+                    for e in range(E):
+                        if active[e] != 0.0 and dec[e, bb] == -1.0 and pix[e, j] != 0.0:
+                            seen = True
+                    if not seen:
+                        sig[j] = np.nan
+        b = b2
+
+
+@njit(cache=True, fastmath=FASTMATH, error_model="numpy")
+def _sig_from_sums(acc, cnt, sig):
     for j in range(acc.shape[0]):
         n = cnt[j]
-        seen = n > 0.0
-        s = acc[j] / (n if seen else 1.0)
+        sig[j] = acc[j] / n if n > 0.0 else np.nan
+
+
+@njit(cache=True, inline="always", fastmath=FASTMATH)
+def _row_general(ce, vz, cos_az, sin_az, R_eye_view, eye_params, b_eye, pairs, cubes, active,
+                 dec, pix, rb, ib, sig):
+    """The row's signal in general: every eye in use on its own, over the runs of blocks
+    it sees, summed and divided by the number of eyes that see each pixel."""
+    W = cos_az.shape[0]
+    nb = dec.shape[1]
+    acc = rb[RB_ACC]
+    cnt = rb[RB_CNT]
+    acc[:] = 0.0
+    cnt[:] = 0.0
+    for e in range(active.shape[0]):
+        if active[e] == 0.0:
+            continue
+        b = 0
+        while b < nb:
+            if dec[e, b] == 0.0:
+                b += 1
+                continue
+            b2 = b + 1
+            while b2 < nb and dec[e, b2] != 0.0:
+                b2 += 1
+            j0 = b * SUB
+            j1 = min(W, b2 * SUB)
+            for k0 in range(j0, j1, EYE_CHUNK):
+                _eye_values(ce, vz, cos_az, sin_az, R_eye_view[e], eye_params[e], b_eye[e],
+                            pairs, cubes, rb, ib, k0, min(j1, k0 + EYE_CHUNK))
+            for bb in range(b, b2):
+                c0 = bb * SUB
+                c1 = min(W, c0 + SUB)
+                if dec[e, bb] == 1.0:
+                    _tile_add_all(rb[RB_VAL, c0:c1], acc[c0:c1], cnt[c0:c1])
+                else:
+                    _tile_add(pix[e, c0:c1], rb[RB_VAL, c0:c1], acc[c0:c1], cnt[c0:c1])
+            b = b2
+    _sig_from_sums(acc, cnt, sig)
+
+
+@njit(cache=True, inline="always", fastmath=FASTMATH)
+def _row_signal(ce, vz, cos_az, sin_az, bnd, bnd2, R_eye_view, eye_params, kcs, b_eye, active,
+                fast, bv, shared_row, pairs, cubes, rb, ib, dec, kinds, sig):
+    """The signal of one row of an equirectangular view into ``sig`` (NaN where no eye in
+    use sees).  ``active`` marks the eyes in use (all, or the picked one); ``fast``: they
+    all belong to the shared group (see the notes above), whose table row is
+    ``shared_row``.  ``rb``, ``ib``, ``dec``, ``kinds`` are scratch (see the callers)."""
+    E = R_eye_view.shape[0]
+    pix = rb[_NROW:]
+    for e in range(E):
+        if active[e] != 0.0:
+            _row_decide(ce, vz, bnd[0], bnd[1], bnd[2], bnd[3], R_eye_view[e], kcs[e], dec[e])
+            _row_pixels(ce, vz, cos_az, sin_az, bnd2, R_eye_view[e], eye_params[e], kcs[e],
+                        dec[e], rb, ib, pix[e])
+    if fast:
+        _row_shared(ce, vz, cos_az, sin_az, bv, pairs[shared_row], active, dec, pix, rb, kinds,
+                    sig)
+    else:
+        _row_general(ce, vz, cos_az, sin_az, R_eye_view, eye_params, b_eye, pairs, cubes, active,
+                     dec, pix, rb, ib, sig)
+
+
+@njit(cache=True, fastmath=FASTMATH, error_model="numpy")
+def _row_modulate(scene_row, sig, inv_mean, gain, outside, C, out_row):
+    """``_modulate`` for one row of flattened (W·C,) pixels: seen pixels (signal not NaN)
+    scaled by 1 + gain·(s/mean − 1) and clipped to [0, 1], unseen ones multiplied by
+    ``outside``, unclipped."""
+    for j in range(sig.shape[0]):
+        s = sig[j]
+        seen = s == s
         kk = 1.0 + gain * (s * inv_mean - 1.0) if seen else outside
         for ch in range(C):
             w = scene_row[j * C + ch] * kk
@@ -816,123 +1136,138 @@ def _tile_modulate(scene_row, acc, cnt, inv_mean, gain, outside, C, out_row):
 
 
 @njit(cache=True, fastmath=FASTMATH, error_model="numpy")
-def _tile_modulate3(scene_row, acc, cnt, inv_mean, gain, outside, out_row):
-    """``_tile_modulate`` for three channels, unrolled so the pixel loop vectorises."""
-    for j in range(acc.shape[0]):
-        n = cnt[j]
-        seen = n > 0.0
-        s = acc[j] / (n if seen else 1.0)
-        kk = 1.0 + gain * (s * inv_mean - 1.0) if seen else outside
+def _row_modulate3(scene_row, sig, inv_mean, gain, outside, out_row):
+    """``_row_modulate`` for three float32 channels, unrolled so the pixel loop
+    vectorises.  The factor is computed in float64 and applied in float32 (the
+    channels' own precision): the result is within one float32 rounding (6e-8
+    relative) of the float64 product rounded to float32."""
+    g = np.float32(0.0)
+    one = np.float32(1.0)
+    out32 = np.float32(outside)
+    for j in range(sig.shape[0]):
+        s = sig[j]
+        seen = s == s
+        kk = np.float32(1.0 + gain * (s * inv_mean - 1.0)) if seen else out32
         w0 = scene_row[3 * j] * kk
         w1 = scene_row[3 * j + 1] * kk
         w2 = scene_row[3 * j + 2] * kk
-        c0 = 0.0 if w0 < 0.0 else (1.0 if w0 > 1.0 else w0)
-        c1 = 0.0 if w1 < 0.0 else (1.0 if w1 > 1.0 else w1)
-        c2 = 0.0 if w2 < 0.0 else (1.0 if w2 > 1.0 else w2)
+        c0 = g if w0 < g else (one if w0 > one else w0)
+        c1 = g if w1 < g else (one if w1 > one else w1)
+        c2 = g if w2 < g else (one if w2 > one else w2)
         out_row[3 * j] = c0 if seen else w0
         out_row[3 * j + 1] = c1 if seen else w1
         out_row[3 * j + 2] = c2 if seen else w2
 
 
-@njit(cache=True, fastmath=FASTMATH)
-def _tile_signal(ce, vz, caz, saz, chord, R_eye_view, eye_params, b_eye, lut, cubes, pick, buf,
-                 ibuf):
-    """Per-eye tile passes for one row tile: ``buf[7]`` gets the sum of the signals of the
-    eyes that see each direction, ``buf[8]`` their number (``_signal`` = sum / number, NaN
-    at 0).  ``buf`` (11, ≥ n) float64 and ``ibuf`` (2, ≥ n) int64 are scratch; ``chord``
-    from :func:`_block_chords`, starting at this tile's first block."""
-    n = caz.shape[0]
-    ux = buf[0, :n]
-    uy = buf[1, :n]
-    uz = buf[2, :n]
-    st = buf[3, :n]
-    A = buf[4, :n]
-    B = buf[5, :n]
-    c = buf[6, :n]
-    acc = buf[7, :n]
-    cnt = buf[8, :n]
-    be1 = buf[9, :n]
-    be2 = buf[10, :n]
-    ia = ibuf[0, :n]
-    ib = ibuf[1, :n]
-    acc[:] = 0.0
-    cnt[:] = 0.0
-    for e in range(R_eye_view.shape[0]):
-        if pick >= 0 and e != pick:
-            continue
-        p = eye_params[e]
-        undecided, seen = _tile_visibility(ce, vz, caz, saz, chord, R_eye_view[e], p, ux, uy,
-                                           uz, st)
-        if undecided + seen == 0:
-            continue  # this eye sees none of the tile
-        if undecided:
-            for j in range(n):
-                if st[j] == 2.0:
-                    st[j] = 1.0 if _visible(ux[j], uy[j], uz[j], p) else 0.0
-        _tile_axis(p, b_eye[e], ux, uy, uz, A, B, c)
-        table = lut[int(p[P_LUT])]
-        mode = p[P_MODE]
-        if mode == MODE_AXIAL:
-            _tile_lut_index(table, c, ia, ux)
-            _tile_lut_acc(table, ia, ux, st, acc, cnt)
-            continue
-        _tile_frame(p, b_eye[e], ux, uy, uz, A, B, c, be1, be2)
-        # the eye-frame direction is spent now: its buffers take the fractions
-        if mode == MODE_RATIO:
-            _tile_ratio_arg(p, c, be1, be2, uz)
-            _tile_lut_index(table, c, ia, ux)
-            _tile_lut_index(table, uz, ib, uy)
-            _tile_ratio_acc(table, ia, ux, ib, uy, st, acc, cnt)
-        else:
-            cube = cubes[int(p[P_CUBE])]
-            m = cube.shape[2]
-            _tile_cube_index(p, m, c, be1, be2, ia, ux, uy)
-            _tile_cube_acc(cube.reshape(-1), m, ia, ux, uy, st, acc, cnt)
+@njit(cache=True)
+def _active(E, pick):
+    a = np.zeros(E)
+    for e in range(E):
+        a[e] = 1.0 if pick < 0 or e == pick else 0.0
+    return a
+
+
+@njit(cache=True)
+def _fast_path(active, shared):
+    """Every eye in use belongs to the shared group (and at least one is in use)."""
+    any_ = False
+    for e in range(active.shape[0]):
+        if active[e] != 0.0:
+            any_ = True
+            if shared[e] == 0.0:
+                return False
+    return any_
+
+
+@njit(cache=True)
+def _shared_row(eye_params, shared):
+    for e in range(shared.shape[0]):
+        if shared[e] != 0.0:
+            return int(eye_params[e, P_LUT])
+    return 0
 
 
 @njit(parallel=True, cache=True, fastmath=FASTMATH)
+def _pattern_equirect(cos_el, sin_el, cos_az, sin_az, R_head_view, R_eye_view, eye_params,
+                      b_eye, shared, bv, lut, cubes, pick, out):
+    """Signal on an equirectangular grid whose directions are in the view frame.
+
+    ``out`` (H, W) float64 is filled; NaN where no eye sees.  Computed a row at a time
+    (see the row-pass notes).
+    """
+    H = cos_el.shape[0]
+    W = cos_az.shape[0]
+    E = R_eye_view.shape[0]
+    bnd = _block_bounds(cos_az, sin_az, SUB)
+    bnd2 = _block_bounds(cos_az, sin_az, SUB2)
+    nb = bnd.shape[1]
+    kcs = _eye_consts(eye_params)
+    active = _active(E, pick)
+    fast = _fast_path(active, shared)
+    srow = _shared_row(eye_params, shared)
+    pairs = _pair_tables(lut)
+    nblk = (H + ROW_BLOCK - 1) // ROW_BLOCK
+    for blk in prange(nblk):
+        rb = np.empty((_NROW + E, W))
+        ib = np.empty((2, W), dtype=np.int64)
+        dec = np.empty((E, nb))
+        kinds = np.empty(nb)
+        for i in range(blk * ROW_BLOCK, min(H, (blk + 1) * ROW_BLOCK)):
+            _row_signal(cos_el[i], -sin_el[i], cos_az, sin_az, bnd, bnd2, R_eye_view,
+                        eye_params, kcs, b_eye, active, fast, bv, srow, pairs, cubes, rb, ib, dec,
+                        kinds, out[i])
+
+@njit(parallel=True, cache=True, fastmath=FASTMATH)
 def _composite_world_aligned(scene, cos_el, sin_el, cos_az, sin_az, R_head_view, R_eye_view,
-                            eye_params, b_eye, lut, cubes, pick, inv_mean, gain, outside, out):
+                             eye_params, b_eye, shared, bv, lut, cubes, pick, inv_mean, gain,
+                             outside, out):
     """Composite a world panorama whose pixel grid coincides with the scene's.
 
     ``scene`` and ``out`` (H, W, C) float32 linear light, C-contiguous.  Modulation
     m = gain·(s/mean − 1) multiplies every channel (luminance, chromaticity kept);
-    unseen pixels are multiplied by ``outside``.  Computed per row tile (see above).
+    unseen pixels are multiplied by ``outside``.  Computed a row at a time (see the
+    row-pass notes).
     """
     H = cos_el.shape[0]
     W = cos_az.shape[0]
     C = scene.shape[2]
-    chord = _block_chords(cos_az, sin_az)
+    E = R_eye_view.shape[0]
+    bnd = _block_bounds(cos_az, sin_az, SUB)
+    bnd2 = _block_bounds(cos_az, sin_az, SUB2)
+    nb = bnd.shape[1]
+    kcs = _eye_consts(eye_params)
+    active = _active(E, pick)
+    fast = _fast_path(active, shared)
+    srow = _shared_row(eye_params, shared)
+    pairs = _pair_tables(lut)
     nblk = (H + ROW_BLOCK - 1) // ROW_BLOCK
     for blk in prange(nblk):
-        buf = np.empty((11, TILE))
-        ibuf = np.empty((2, TILE), dtype=np.int64)
+        rb = np.empty((_NROW + E, W))
+        ib = np.empty((2, W), dtype=np.int64)
+        dec = np.empty((E, nb))
+        kinds = np.empty(nb)
+        sig = np.empty(W)
         for i in range(blk * ROW_BLOCK, min(H, (blk + 1) * ROW_BLOCK)):
-            scene_row = scene[i].reshape(-1)
-            out_row = out[i].reshape(-1)
-            for j0 in range(0, W, TILE):
-                j1 = min(W, j0 + TILE)
-                n = j1 - j0
-                _tile_signal(cos_el[i], -sin_el[i], cos_az[j0:j1], sin_az[j0:j1],
-                             chord[j0 // SUB:], R_eye_view, eye_params, b_eye, lut, cubes, pick,
-                             buf, ibuf)
-                if C == 3:
-                    _tile_modulate3(scene_row[3 * j0:3 * j1], buf[7, :n], buf[8, :n], inv_mean,
-                                    gain, outside, out_row[3 * j0:3 * j1])
-                else:
-                    _tile_modulate(scene_row[C * j0:C * j1], buf[7, :n], buf[8, :n], inv_mean,
-                                   gain, outside, C, out_row[C * j0:C * j1])
+            _row_signal(cos_el[i], -sin_el[i], cos_az, sin_az, bnd, bnd2, R_eye_view,
+                        eye_params, kcs, b_eye, active, fast, bv, srow, pairs, cubes, rb, ib, dec,
+                        kinds, sig)
+            if C == 3:
+                _row_modulate3(scene[i].reshape(-1), sig, inv_mean, gain, outside,
+                               out[i].reshape(-1))
+            else:
+                _row_modulate(scene[i].reshape(-1), sig, inv_mean, gain, outside, C,
+                              out[i].reshape(-1))
 
 
 @njit(parallel=True, cache=True, fastmath=FASTMATH)
 def _composite_resampled(scene, north_col, cos_el, sin_el, cos_az, sin_az, R_head_view,
-                        R_world_view, R_eye_view, eye_params, b_eye, lut, cubes, pick, inv_mean,
-                         gain, outside, out):
+                         R_world_view, R_eye_view, eye_params, b_eye, shared, bv, lut, cubes,
+                         pick, inv_mean, gain, outside, out):
     """Composite an equirectangular view (any frame) over a resampled scene.
 
     The scene is a 2:1 world panorama with geographic north at continuous column
     ``north_col``; each output pixel's direction is rotated into the world frame by
-    ``R_world_view`` and the scene sampled bilinearly.  The signal comes from the row-tile
+    ``R_world_view`` and the scene sampled bilinearly.  The signal comes from the row
     passes of the world composite; the scene lookup stays per pixel.
     """
     H = cos_el.shape[0]
@@ -940,34 +1275,42 @@ def _composite_resampled(scene, north_col, cos_el, sin_el, cos_az, sin_az, R_hea
     SH = scene.shape[0]
     SW = scene.shape[1]
     C = scene.shape[2]
+    E = R_eye_view.shape[0]
     Q = R_world_view
-    chord = _block_chords(cos_az, sin_az)
+    bnd = _block_bounds(cos_az, sin_az, SUB)
+    bnd2 = _block_bounds(cos_az, sin_az, SUB2)
+    nb = bnd.shape[1]
+    kcs = _eye_consts(eye_params)
+    active = _active(E, pick)
+    fast = _fast_path(active, shared)
+    srow = _shared_row(eye_params, shared)
+    pairs = _pair_tables(lut)
     nblk = (H + ROW_BLOCK - 1) // ROW_BLOCK
     for blk in prange(nblk):
-        buf = np.empty((11, TILE))
-        ibuf = np.empty((2, TILE), dtype=np.int64)
+        rb = np.empty((_NROW + E, W))
+        ib = np.empty((2, W), dtype=np.int64)
+        dec = np.empty((E, nb))
+        kinds = np.empty(nb)
+        sig = np.empty(W)
         px = np.empty(C, dtype=np.float32)
         for i in range(blk * ROW_BLOCK, min(H, (blk + 1) * ROW_BLOCK)):
             ce = cos_el[i]
             vz = -sin_el[i]
-            for j0 in range(0, W, TILE):
-                j1 = min(W, j0 + TILE)
-                _tile_signal(ce, vz, cos_az[j0:j1], sin_az[j0:j1], chord[j0 // SUB:], R_eye_view,
-                             eye_params, b_eye, lut, cubes, pick, buf, ibuf)
-                for j in range(j0, j1):
-                    vx = ce * cos_az[j]
-                    vy = ce * sin_az[j]
-                    wx = Q[0, 0] * vx + Q[0, 1] * vy + Q[0, 2] * vz
-                    wy = Q[1, 0] * vx + Q[1, 1] * vy + Q[1, 2] * vz
-                    wz = Q[2, 0] * vx + Q[2, 1] * vy + Q[2, 2] * vz
-                    az = math.atan2(wy, wx)
-                    el = math.asin(min(1.0, max(-1.0, -wz)))
-                    x = north_col + az * (SW / (2.0 * math.pi))
-                    y = (0.5 * math.pi - el) * (SH / math.pi)
-                    _bilinear(scene, x, y, px)
-                    k = buf[8, j - j0]
-                    s = buf[7, j - j0] / k if k > 0.0 else np.nan
-                    _modulate(px, s, inv_mean, gain, outside, out[i, j])
+            _row_signal(ce, vz, cos_az, sin_az, bnd, bnd2, R_eye_view, eye_params, kcs, b_eye,
+                        active, fast, bv, srow, pairs, cubes, rb, ib, dec, kinds, sig)
+            for j in range(W):
+                vx = ce * cos_az[j]
+                vy = ce * sin_az[j]
+                wx = Q[0, 0] * vx + Q[0, 1] * vy + Q[0, 2] * vz
+                wy = Q[1, 0] * vx + Q[1, 1] * vy + Q[1, 2] * vz
+                wz = Q[2, 0] * vx + Q[2, 1] * vy + Q[2, 2] * vz
+                az = math.atan2(wy, wx)
+                el = math.asin(min(1.0, max(-1.0, -wz)))
+                x = north_col + az * (SW / (2.0 * math.pi))
+                y = (0.5 * math.pi - el) * (SH / math.pi)
+                _bilinear(scene, x, y, px)
+                _modulate(px, sig[j], inv_mean, gain, outside, out[i, j])
+
 
 
 @njit(parallel=True, cache=True, fastmath=FASTMATH)
@@ -1012,6 +1355,34 @@ def _fold(R_eye_head, R_head_view):
                                           np.asarray(R_head_view, np.float64)))
 
 
+def _shared_group(R_eye_view, eye_params, b_eye):
+    """The eyes that can share one value per pixel (see the row-pass notes): chief-ray
+    geometry (q = 0, e2 = 1: the receptor axis is the view direction), axial mode, the
+    most common table row among those, and the same field in the view frame (to 1e-12).
+
+    Returns ``shared`` (E,) float64 (1 for a member) and ``bv`` (3,), the field in the
+    view frame.  Their cos θ = a·b_e = u·b_e = v·bv is the same in every member's frame,
+    so the value is too (up to rounding, ~1e-16).
+    """
+    E = R_eye_view.shape[0]
+    shared = np.zeros(E)
+    bv = np.zeros(3)
+    ok = [e for e in range(E)
+          if eye_params[e, P_Q] == 0.0 and eye_params[e, P_E2] == 1.0
+          and eye_params[e, P_MODE] == MODE_AXIAL]
+    if not ok:
+        return shared, bv
+    rows = [int(eye_params[e, P_LUT]) for e in ok]
+    row = max(set(rows), key=lambda r: (rows.count(r), -rows.index(r)))
+    members = [e for e in ok if int(eye_params[e, P_LUT]) == row]
+    b_view = [R_eye_view[e].T @ np.asarray(b_eye[e], np.float64) for e in members]
+    bv = b_view[0]
+    for e, b in zip(members, b_view):
+        if np.max(np.abs(b - bv)) <= 1e-12:
+            shared[e] = 1.0
+    return shared, np.ascontiguousarray(bv)
+
+
 def _tables(eye_params, lut, cubes):
     lut = np.asarray(lut, dtype=np.float64)
     if lut.ndim == 1:
@@ -1028,7 +1399,9 @@ def _tables(eye_params, lut, cubes):
             raise ValueError("a full-frame alignment needs its cube-map tables: pass "
                              "cubes=ShotInputs.cubes")
         cubes = _NO_CUBES
-    cubes = np.ascontiguousarray(cubes, dtype=np.float64)
+    # float32 tables (as pipeline.prepare stores them) are read as they are
+    cubes = np.ascontiguousarray(cubes, dtype=np.float32 if np.asarray(cubes).dtype == np.float32
+                                 else np.float64)
     if needs_cube.any() and eye_params[needs_cube, P_CUBE].max() >= cubes.shape[0]:
         raise ValueError("eye_params ask for a cube-map table that is not in cubes")
     return lut, cubes
@@ -1041,9 +1414,14 @@ def pattern_equirect(cos_el, sin_el, cos_az, sin_az, R_head_view, R_eye_head, ey
     ``out`` (H, W) float64 is filled; NaN where no eye sees.
     """
     lut, cubes = _tables(eye_params, lut, cubes)
-    _pattern_equirect(cos_el, sin_el, cos_az, sin_az, R_head_view, _fold(R_eye_head, R_head_view),
-                      eye_params, b_eye,
-                      lut, cubes, pick, out)
+    R_eye_view = _fold(R_eye_head, R_head_view)
+    shared, bv = _shared_group(R_eye_view, eye_params, b_eye)
+    # the kernel writes rows in place, which needs a C-contiguous float64 array
+    dest = out if (out.flags.c_contiguous and out.dtype == np.float64) else np.empty(out.shape)
+    _pattern_equirect(cos_el, sin_el, cos_az, sin_az, R_head_view, R_eye_view, eye_params, b_eye,
+                      shared, bv, lut, cubes, pick, dest)
+    if dest is not out:
+        out[...] = dest
 
 
 def pattern_dirs(dirs, R_head_view, R_eye_head, eye_params, b_eye, lut, pick, out, cubes=None):
@@ -1066,9 +1444,11 @@ def composite_world_aligned(scene, cos_el, sin_el, cos_az, sin_az, R_head_view, 
     # the kernel walks rows as flat (W·C,) arrays, which needs C-contiguous images
     scene = np.ascontiguousarray(scene)
     dest = out if out.flags.c_contiguous else np.empty(out.shape, out.dtype)
-    _composite_world_aligned(scene, cos_el, sin_el, cos_az, sin_az, R_head_view,
-                             _fold(R_eye_head, R_head_view),
-                             eye_params, b_eye, lut, cubes, pick, inv_mean, gain, outside, dest)
+    R_eye_view = _fold(R_eye_head, R_head_view)
+    shared, bv = _shared_group(R_eye_view, eye_params, b_eye)
+    _composite_world_aligned(scene, cos_el, sin_el, cos_az, sin_az, R_head_view, R_eye_view,
+                             eye_params, b_eye, shared, bv, lut, cubes, pick, inv_mean, gain,
+                             outside, dest)
     if dest is not out:
         out[...] = dest
 
@@ -1083,10 +1463,11 @@ def composite_resampled(scene, north_col, cos_el, sin_el, cos_az, sin_az, R_head
     ``R_world_view`` and the scene sampled bilinearly.
     """
     lut, cubes = _tables(eye_params, lut, cubes)
+    R_eye_view = _fold(R_eye_head, R_head_view)
+    shared, bv = _shared_group(R_eye_view, eye_params, b_eye)
     _composite_resampled(scene, north_col, cos_el, sin_el, cos_az, sin_az, R_head_view,
-                         R_world_view, _fold(R_eye_head, R_head_view), eye_params, b_eye, lut, cubes,
-                         pick, inv_mean,
-                         gain, outside, out)
+                         R_world_view, R_eye_view, eye_params, b_eye, shared, bv, lut, cubes,
+                         pick, inv_mean, gain, outside, out)
 
 
 def composite_dirs(scene, north_col, dirs, R_head_view, R_world_view, R_eye_head, eye_params,
