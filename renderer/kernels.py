@@ -1187,6 +1187,17 @@ def _shared_row(eye_params, shared):
     return 0
 
 
+@njit(cache=True)
+def _row_setup(cos_az, sin_az, eye_params, shared, lut, pick):
+    """Per-call inputs of the row passes: block bounds for SUB and SUB2, the eyes'
+    visibility constants, the eyes in use, whether they all share one value, the shared
+    table row, and the (value, step) table pairs."""
+    active = _active(eye_params.shape[0], pick)
+    return (_block_bounds(cos_az, sin_az, SUB), _block_bounds(cos_az, sin_az, SUB2),
+            _eye_consts(eye_params), active, _fast_path(active, shared),
+            _shared_row(eye_params, shared), _pair_tables(lut))
+
+
 @njit(parallel=True, cache=True, fastmath=FASTMATH)
 def _pattern_equirect(cos_el, sin_el, cos_az, sin_az, R_head_view, R_eye_view, eye_params,
                       b_eye, shared, bv, lut, cubes, pick, out):
@@ -1198,14 +1209,9 @@ def _pattern_equirect(cos_el, sin_el, cos_az, sin_az, R_head_view, R_eye_view, e
     H = cos_el.shape[0]
     W = cos_az.shape[0]
     E = R_eye_view.shape[0]
-    bnd = _block_bounds(cos_az, sin_az, SUB)
-    bnd2 = _block_bounds(cos_az, sin_az, SUB2)
+    bnd, bnd2, kcs, active, fast, srow, pairs = _row_setup(cos_az, sin_az, eye_params, shared,
+                                                           lut, pick)
     nb = bnd.shape[1]
-    kcs = _eye_consts(eye_params)
-    active = _active(E, pick)
-    fast = _fast_path(active, shared)
-    srow = _shared_row(eye_params, shared)
-    pairs = _pair_tables(lut)
     nblk = (H + ROW_BLOCK - 1) // ROW_BLOCK
     for blk in prange(nblk):
         rb = np.empty((_NROW + E, W))
@@ -1232,14 +1238,9 @@ def _composite_world_aligned(scene, cos_el, sin_el, cos_az, sin_az, R_head_view,
     W = cos_az.shape[0]
     C = scene.shape[2]
     E = R_eye_view.shape[0]
-    bnd = _block_bounds(cos_az, sin_az, SUB)
-    bnd2 = _block_bounds(cos_az, sin_az, SUB2)
+    bnd, bnd2, kcs, active, fast, srow, pairs = _row_setup(cos_az, sin_az, eye_params, shared,
+                                                           lut, pick)
     nb = bnd.shape[1]
-    kcs = _eye_consts(eye_params)
-    active = _active(E, pick)
-    fast = _fast_path(active, shared)
-    srow = _shared_row(eye_params, shared)
-    pairs = _pair_tables(lut)
     nblk = (H + ROW_BLOCK - 1) // ROW_BLOCK
     for blk in prange(nblk):
         rb = np.empty((_NROW + E, W))
@@ -1277,14 +1278,9 @@ def _composite_resampled(scene, north_col, cos_el, sin_el, cos_az, sin_az, R_hea
     C = scene.shape[2]
     E = R_eye_view.shape[0]
     Q = R_world_view
-    bnd = _block_bounds(cos_az, sin_az, SUB)
-    bnd2 = _block_bounds(cos_az, sin_az, SUB2)
+    bnd, bnd2, kcs, active, fast, srow, pairs = _row_setup(cos_az, sin_az, eye_params, shared,
+                                                           lut, pick)
     nb = bnd.shape[1]
-    kcs = _eye_consts(eye_params)
-    active = _active(E, pick)
-    fast = _fast_path(active, shared)
-    srow = _shared_row(eye_params, shared)
-    pairs = _pair_tables(lut)
     nblk = (H + ROW_BLOCK - 1) // ROW_BLOCK
     for blk in prange(nblk):
         rb = np.empty((_NROW + E, W))
