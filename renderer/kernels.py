@@ -457,17 +457,18 @@ def _modulate(px, s, inv_mean, gain, outside, out_px):
 # zero (guarded by selects), so nothing observable changes.  Same maths as ``_signal``
 # (and its NumPy twin), only the order differs; the tests compare both.
 
-#: Columns per visibility block, and per sub-block of the blocks left undecided (SUB is a
-#: multiple of SUB2).
+#: Columns per visibility block.
 SUB = 64
-SUB2 = 4
 #: Columns per chunk of the shared group's value pass (a whole row at the usual widths:
 #: every call of a compiled helper costs of the order of 100 ns, more than the cache
 #: misses saved by smaller chunks), and of the per-eye passes (whose ten float64 buffers
 #: then take 20 KiB and stay in L1 cache).
 CHUNK = 4096
 EYE_CHUNK = 256
-#: Rows per parallel work item, so the row buffers are allocated once per block.
+#: Rows per parallel work item, so the row buffers are allocated once per item.  Item k
+#: takes rows k, k + n, k + 2n, ... (n items): numba's threads take contiguous ranges of
+#: items, and the rows' cost varies with elevation (an eye sees more of one hemisphere),
+#: so contiguous rows left one thread idle for about a tenth of the time.
 ROW_BLOCK = 8
 
 #: Rows of the float64 row buffer (then one row of per-pixel visibility per eye).
@@ -675,64 +676,38 @@ def _block_pixels(ce, vz, caz, saz, R, kc, st):
 
 
 @njit(cache=True, inline="always", fastmath=FASTMATH, error_model="numpy")
-def _row_pixels(ce, vz, cos_az, sin_az, bnd2, R, p, kc, dec, vb, ib, pix):
-    """Per-pixel visibility ``pix`` (1.0/0.0) of the undecided blocks of one row and eye.
+def _row_pixels(ce, vz, cos_az, sin_az, R, p, kc, dec, pix):
+    """Per-pixel visibility ``pix`` (1.0/0.0) over the undecided blocks of one row and
+    eye (``pix`` elsewhere is left as it was).
 
-    The undecided blocks' sub-blocks of SUB2 columns are gathered and decided as the
-    blocks were, in one call of :func:`_row_decide` on their bounds ``bnd2``; the pixels
-    of the sub-blocks still undecided are gathered for one call of
-    :func:`_block_pixels`, then the exact ``_visible`` settles the few it leaves (the
-    NumPy twin's test).  ``vb`` (8, ≥ W) float64 and ``ib`` (2, ≥ W) int64 are scratch.
+    Each run of undecided blocks gets one call of :func:`_block_pixels` on slices of the
+    row (slices starting at 0 let LLVM prove the indices non-negative and vectorise;
+    a loop over range(j0, j1) of the whole row ran about 3× slower), then the exact
+    ``_visible`` settles the few pixels it leaves (the NumPy twin's test).
     """
     W = cos_az.shape[0]
-    per = SUB // SUB2
-    nsub = bnd2.shape[1]
-    sidx = ib[0]
-    m = 0
-    for b in range(dec.shape[0]):
+    nb = dec.shape[0]
+    b = 0
+    while b < nb:
         if dec[b] != -1.0:
+            b += 1
             continue
-        for t in range(b * per, min(nsub, (b + 1) * per)):
-            vb[0, m] = bnd2[0, t]
-            vb[1, m] = bnd2[1, t]
-            vb[2, m] = bnd2[2, t]
-            vb[3, m] = bnd2[3, t]
-            sidx[m] = t
-            m += 1
-    if m == 0:
-        return
-    sd = vb[4, :m]
-    _row_decide(ce, vz, vb[0, :m], vb[1, :m], vb[2, :m], vb[3, :m], R, kc, sd)
-    pidx = ib[1]
-    q = 0
-    for t in range(m):
-        c0 = sidx[t] * SUB2
-        c1 = min(W, c0 + SUB2)
-        d = sd[t]
-        if d != -1.0:
-            for j in range(c0, c1):
-                pix[j] = d
+        b2 = b + 1
+        while b2 < nb and dec[b2] == -1.0:
+            b2 += 1
+        j0 = b * SUB
+        j1 = min(W, b2 * SUB)
+        b = b2
+        if _block_pixels(ce, vz, cos_az[j0:j1], sin_az[j0:j1], R, kc, pix[j0:j1]) == 0:
             continue
-        for j in range(c0, c1):
-            vb[5, q] = cos_az[j]
-            vb[6, q] = sin_az[j]
-            pidx[q] = j
-            q += 1
-    if q == 0:
-        return
-    st = vb[7, :q]
-    _block_pixels(ce, vz, vb[5, :q], vb[6, :q], R, kc, st)
-    for t in range(q):
-        j = pidx[t]
-        v = st[t]
-        if v == 2.0:
-            vx = ce * cos_az[j]
-            vy = ce * sin_az[j]
-            x = R[0, 0] * vx + R[0, 1] * vy + R[0, 2] * vz
-            y = R[1, 0] * vx + R[1, 1] * vy + R[1, 2] * vz
-            z = R[2, 0] * vx + R[2, 1] * vy + R[2, 2] * vz
-            v = 1.0 if _visible(x, y, z, p) else 0.0
-        pix[j] = v
+        for j in range(j0, j1):
+            if pix[j] == 2.0:
+                vx = ce * cos_az[j]
+                vy = ce * sin_az[j]
+                x = R[0, 0] * vx + R[0, 1] * vy + R[0, 2] * vz
+                y = R[1, 0] * vx + R[1, 1] * vy + R[1, 2] * vz
+                z = R[2, 0] * vx + R[2, 1] * vy + R[2, 2] * vz
+                pix[j] = 1.0 if _visible(x, y, z, p) else 0.0
 
 
 @njit(cache=True, fastmath=FASTMATH, error_model="numpy")
@@ -1014,7 +989,8 @@ def _shared_values(ce, vz, cos_az, sin_az, bv, pair, j0, j1, rb, sig):
 def _row_shared(ce, vz, cos_az, sin_az, bv, pair, active, dec, pix, rb, kinds, sig):
     """The row's signal when every eye in use (``active``) belongs to the shared group:
     f(v·bv) wherever any of them sees, NaN elsewhere.  Runs of blocks some eye sees are
-    computed in one go; blocks with undecided pixels are masked pixel by pixel."""
+    computed in one go; in blocks no eye sees whole, the eyes' per-pixel visibility is
+    combined (``rb[RB_ACC]`` holds it) and the unseen pixels set to NaN."""
     W = cos_az.shape[0]
     nb = kinds.shape[0]
     E = active.shape[0]
@@ -1028,6 +1004,7 @@ def _row_shared(ce, vz, cos_az, sin_az, bv, pair, active, dec, pix, rb, kinds, s
                 elif d == -1.0 and kind == 0:
                     kind = 2
         kinds[b] = kind
+    seen = rb[RB_ACC]
     b = 0
     while b < nb:
         b2 = b + 1
@@ -1041,15 +1018,20 @@ def _row_shared(ce, vz, cos_az, sin_az, bv, pair, active, dec, pix, rb, kinds, s
             b2 += 1
         _shared_values(ce, vz, cos_az, sin_az, bv, pair, b * SUB, min(W, b2 * SUB), rb, sig)
         for bb in range(b, b2):
-            if kinds[bb] == 2:
-                # some eye sees part of the block, none all of it: unseen pixels -> NaN
-                for j in range(bb * SUB, min(W, (bb + 1) * SUB)):
-                    seen = False
-                    for e in range(E):
-                        if active[e] != 0.0 and dec[e, bb] == -1.0 and pix[e, j] != 0.0:
-                            seen = True
-                    if not seen:
-                        sig[j] = np.nan
+            if kinds[bb] != 2:
+                continue
+            c0 = bb * SUB
+            c1 = min(W, c0 + SUB)
+            sb = seen[c0:c1]
+            sb[:] = 0.0
+            for e in range(E):
+                if active[e] != 0.0 and dec[e, bb] == -1.0:
+                    pe = pix[e, c0:c1]
+                    for j in range(sb.shape[0]):
+                        sb[j] = max(sb[j], pe[j])
+            vb = sig[c0:c1]
+            for j in range(vb.shape[0]):
+                vb[j] = vb[j] if sb[j] > 0.0 else np.nan
         b = b2
 
 
@@ -1099,7 +1081,7 @@ def _row_general(ce, vz, cos_az, sin_az, R_eye_view, eye_params, b_eye, pairs, c
 
 
 @njit(cache=True, inline="always", fastmath=FASTMATH)
-def _row_signal(ce, vz, cos_az, sin_az, bnd, bnd2, R_eye_view, eye_params, kcs, b_eye, active,
+def _row_signal(ce, vz, cos_az, sin_az, bnd, R_eye_view, eye_params, kcs, b_eye, active,
                 fast, bv, shared_row, pairs, cubes, rb, ib, dec, kinds, sig):
     """The signal of one row of an equirectangular view into ``sig`` (NaN where no eye in
     use sees).  ``active`` marks the eyes in use (all, or the picked one); ``fast``: they
@@ -1110,8 +1092,8 @@ def _row_signal(ce, vz, cos_az, sin_az, bnd, bnd2, R_eye_view, eye_params, kcs, 
     for e in range(E):
         if active[e] != 0.0:
             _row_decide(ce, vz, bnd[0], bnd[1], bnd[2], bnd[3], R_eye_view[e], kcs[e], dec[e])
-            _row_pixels(ce, vz, cos_az, sin_az, bnd2, R_eye_view[e], eye_params[e], kcs[e],
-                        dec[e], rb, ib, pix[e])
+            _row_pixels(ce, vz, cos_az, sin_az, R_eye_view[e], eye_params[e], kcs[e], dec[e],
+                        pix[e])
     if fast:
         _row_shared(ce, vz, cos_az, sin_az, bv, pairs[shared_row], active, dec, pix, rb, kinds,
                     sig)
@@ -1189,12 +1171,11 @@ def _shared_row(eye_params, shared):
 
 @njit(cache=True)
 def _row_setup(cos_az, sin_az, eye_params, shared, lut, pick):
-    """Per-call inputs of the row passes: block bounds for SUB and SUB2, the eyes'
+    """Per-call inputs of the row passes: block bounds for SUB, the eyes'
     visibility constants, the eyes in use, whether they all share one value, the shared
     table row, and the (value, step) table pairs."""
     active = _active(eye_params.shape[0], pick)
-    return (_block_bounds(cos_az, sin_az, SUB), _block_bounds(cos_az, sin_az, SUB2),
-            _eye_consts(eye_params), active, _fast_path(active, shared),
+    return (_block_bounds(cos_az, sin_az, SUB), _eye_consts(eye_params), active, _fast_path(active, shared),
             _shared_row(eye_params, shared), _pair_tables(lut))
 
 
@@ -1209,7 +1190,7 @@ def _pattern_equirect(cos_el, sin_el, cos_az, sin_az, R_head_view, R_eye_view, e
     H = cos_el.shape[0]
     W = cos_az.shape[0]
     E = R_eye_view.shape[0]
-    bnd, bnd2, kcs, active, fast, srow, pairs = _row_setup(cos_az, sin_az, eye_params, shared,
+    bnd, kcs, active, fast, srow, pairs = _row_setup(cos_az, sin_az, eye_params, shared,
                                                            lut, pick)
     nb = bnd.shape[1]
     nblk = (H + ROW_BLOCK - 1) // ROW_BLOCK
@@ -1218,8 +1199,8 @@ def _pattern_equirect(cos_el, sin_el, cos_az, sin_az, R_head_view, R_eye_view, e
         ib = np.empty((2, W), dtype=np.int64)
         dec = np.empty((E, nb))
         kinds = np.empty(nb)
-        for i in range(blk * ROW_BLOCK, min(H, (blk + 1) * ROW_BLOCK)):
-            _row_signal(cos_el[i], -sin_el[i], cos_az, sin_az, bnd, bnd2, R_eye_view,
+        for i in range(blk, H, nblk):  # rows spread over the image: balanced threads
+            _row_signal(cos_el[i], -sin_el[i], cos_az, sin_az, bnd, R_eye_view,
                         eye_params, kcs, b_eye, active, fast, bv, srow, pairs, cubes, rb, ib, dec,
                         kinds, out[i])
 
@@ -1238,7 +1219,7 @@ def _composite_world_aligned(scene, cos_el, sin_el, cos_az, sin_az, R_head_view,
     W = cos_az.shape[0]
     C = scene.shape[2]
     E = R_eye_view.shape[0]
-    bnd, bnd2, kcs, active, fast, srow, pairs = _row_setup(cos_az, sin_az, eye_params, shared,
+    bnd, kcs, active, fast, srow, pairs = _row_setup(cos_az, sin_az, eye_params, shared,
                                                            lut, pick)
     nb = bnd.shape[1]
     nblk = (H + ROW_BLOCK - 1) // ROW_BLOCK
@@ -1248,8 +1229,8 @@ def _composite_world_aligned(scene, cos_el, sin_el, cos_az, sin_az, R_head_view,
         dec = np.empty((E, nb))
         kinds = np.empty(nb)
         sig = np.empty(W)
-        for i in range(blk * ROW_BLOCK, min(H, (blk + 1) * ROW_BLOCK)):
-            _row_signal(cos_el[i], -sin_el[i], cos_az, sin_az, bnd, bnd2, R_eye_view,
+        for i in range(blk, H, nblk):  # rows spread over the image: balanced threads
+            _row_signal(cos_el[i], -sin_el[i], cos_az, sin_az, bnd, R_eye_view,
                         eye_params, kcs, b_eye, active, fast, bv, srow, pairs, cubes, rb, ib, dec,
                         kinds, sig)
             if C == 3:
@@ -1278,7 +1259,7 @@ def _composite_resampled(scene, north_col, cos_el, sin_el, cos_az, sin_az, R_hea
     C = scene.shape[2]
     E = R_eye_view.shape[0]
     Q = R_world_view
-    bnd, bnd2, kcs, active, fast, srow, pairs = _row_setup(cos_az, sin_az, eye_params, shared,
+    bnd, kcs, active, fast, srow, pairs = _row_setup(cos_az, sin_az, eye_params, shared,
                                                            lut, pick)
     nb = bnd.shape[1]
     nblk = (H + ROW_BLOCK - 1) // ROW_BLOCK
@@ -1289,10 +1270,10 @@ def _composite_resampled(scene, north_col, cos_el, sin_el, cos_az, sin_az, R_hea
         kinds = np.empty(nb)
         sig = np.empty(W)
         px = np.empty(C, dtype=np.float32)
-        for i in range(blk * ROW_BLOCK, min(H, (blk + 1) * ROW_BLOCK)):
+        for i in range(blk, H, nblk):  # rows spread over the image: balanced threads
             ce = cos_el[i]
             vz = -sin_el[i]
-            _row_signal(ce, vz, cos_az, sin_az, bnd, bnd2, R_eye_view, eye_params, kcs, b_eye,
+            _row_signal(ce, vz, cos_az, sin_az, bnd, R_eye_view, eye_params, kcs, b_eye,
                         active, fast, bv, srow, pairs, cubes, rb, ib, dec, kinds, sig)
             for j in range(W):
                 vx = ce * cos_az[j]
