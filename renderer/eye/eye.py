@@ -21,6 +21,7 @@ import numpy as np
 from scipy.spatial.transform import Rotation
 
 from ..errors import MagretinaError, check_range
+from ..kernels.twins import visible_numpy
 from . import optics
 from .alignment import parse_alignment
 
@@ -307,7 +308,7 @@ class Eye:
     def visible(self, dirs_eye) -> np.ndarray:
         """Boolean mask, shape (N,): which eye-frame directions lie in the field of view."""
         u = np.asarray(dirs_eye, dtype=np.float64)
-        return _visible_numpy(u, self.half_widths_rad, self.nasal_sign)
+        return visible_numpy(u, self.half_widths_rad, self.nasal_sign)
 
     def describe(self) -> dict:
         d = {k: getattr(self, k) for k in self.__dataclass_fields__}
@@ -320,32 +321,6 @@ def _axis_from_coefficients(u, q, e2):
     a = B[..., None] * u
     a[..., 0] = A
     return a
-
-
-def _visible_numpy(u, half_widths, nasal_sign):
-    """NumPy twin of the kernels' field-of-view test (see :mod:`renderer.kernels`).
-
-    A direction at angle α from the optic axis, in the meridian whose unit transverse
-    components towards nose and top are (cos φ, sin φ), is visible if
-    α ≤ w(φ) with w(φ)⁻² = cos²φ/w_h² + sin²φ/w_v², w_h the nasal or temporal and
-    w_v the dorsal or ventral half-width of that quadrant.  Since w(φ) lies between
-    the smallest and largest half-width, cos α ≥ cos w_min is visible and
-    cos α < cos w_max is not without computing α (the kernels' fast path).
-    """
-    nas, tem, dor, ven = (float(x) for x in half_widths)
-    ux = np.clip(u[..., 0], -1.0, 1.0)
-    h = nasal_sign * u[..., 1]
-    v = -u[..., 2]
-    s2 = h * h + v * v
-    alpha = np.arctan2(np.sqrt(s2), ux)
-    wh = np.where(h >= 0, nas, tem)
-    wv = np.where(v >= 0, dor, ven)
-    lim = (h * h / (wh * wh) + v * v / (wv * wv)) * alpha * alpha
-    on_axis = s2 == 0.0
-    full = min(nas, tem, dor, ven) >= np.pi - 1e-12
-    exact = np.where(on_axis, (ux > 0) | full, lim <= s2)
-    c_in, c_out = np.cos(min(nas, tem, dor, ven)), np.cos(max(nas, tem, dor, ven))
-    return np.where(ux >= c_in, True, np.where(ux < c_out, False, exact)) | full
 
 
 def field_angles_deg(eye: Eye, dirs_eye, b_eye) -> np.ndarray:

@@ -11,7 +11,9 @@ meridian plane; the functions therefore return the two numbers (A, B) with
 
     receptor normal = A·x̂ + B·u⊥,      u⊥ = u − (u·x̂) x̂,
 
-which is also how the rendering kernels evaluate it (see :mod:`renderer.kernels`).
+which is also how the rendering kernels evaluate it (see :mod:`renderer.kernels`;
+:func:`ray_parameter` and :func:`normal_coefficients` are defined in
+:mod:`renderer.kernels.twins` and re-exported here).
 This module is the geometry only; it knows nothing of fields or responses.
 """
 
@@ -22,56 +24,8 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..errors import MagretinaError, check_range
-
-
-def ray_parameter(ux, q, e2=1.0):
-    """Distance t (units of b) from the nodal point to the retina along −u.
-
-    Parameters
-    ----------
-    ux : array_like
-        cos α, the view direction's component along the optic axis.
-    q : float
-        Nodal offset d/b (|q| < a/b: the nodal point inside the eye).
-    e2 : float
-        (b/a)², 1 for a spherical retina.
-
-    Returns
-    -------
-    ndarray
-        t > 0 with P = (q − t·ux, −t·u⊥) on the retina.
-    """
-    ux = np.clip(np.asarray(ux, dtype=np.float64), -1.0, 1.0)
-    s2 = 1.0 - ux * ux
-    # (q − t ux)² e2 + t² s2 = 1  →  k t² − 2 q e2 ux t + (q² e2 − 1) = 0,
-    # k = e2 ux² + s2
-    k = e2 * ux * ux + s2
-    half_b = q * e2 * ux
-    disc = half_b * half_b - k * (q * q * e2 - 1.0)
-    return (half_b + np.sqrt(disc)) / k
-
-
-def normal_coefficients(ux, q, e2=1.0):
-    """(A, B): the inward retinal normal at the ray's hit point is A·x̂ + B·u⊥.
-
-    Parameters
-    ----------
-    ux : array_like
-        cos α.
-    q, e2 : float
-        As :func:`ray_parameter`.
-
-    Returns
-    -------
-    A, B : ndarray
-        Same shape as ``ux``.  For a sphere (e2 = 1) A = t·ux − q, B = t.
-    """
-    ux = np.clip(np.asarray(ux, dtype=np.float64), -1.0, 1.0)
-    t = ray_parameter(ux, q, e2)
-    ax = (t * ux - q) * e2
-    bt = t
-    norm = np.sqrt(ax * ax + bt * bt * (1.0 - ux * ux))
-    return ax / norm, bt / norm
+# the base geometry is the kernels' reference maths: one definition, below this layer
+from ..kernels.twins import normal_coefficients, ray_parameter
 
 
 def retinal_eccentricity(alpha, q, e2=1.0):

@@ -4,6 +4,7 @@ import numpy as np
 import pytest
 
 from renderer import kernels, pipeline
+from renderer.kernels import leaf
 from renderer.eye import Eye, Layout, load_layout
 from renderer.eye.alignment import ChiefRay, Disorder, FullFrame, Normal, Ratio, Tilt
 from renderer.field import fixed
@@ -112,7 +113,7 @@ def test_cube_lookup_twin_and_accuracy():
     d = rng.normal(size=(4000, 3))
     d /= np.linalg.norm(d, axis=1, keepdims=True)
     twin = kernels.cube_lookup_numpy(cube, d)
-    jit = np.array([kernels._cube_lookup(cube, *v) for v in d[:300]])
+    jit = np.array([leaf._cube_lookup(cube, *v) for v in d[:300]])
     np.testing.assert_allclose(jit, twin[:300], atol=1e-14)
     h = 2 / (n - 1)
     assert np.max(np.abs(twin - f(d))) <= h * h / 8 * 3.0

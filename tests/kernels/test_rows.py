@@ -7,6 +7,7 @@ import numpy as np
 import pytest
 
 from renderer import kernels, pipeline
+from renderer.kernels import layout, rows, sampling
 from renderer.eye import Eye, Layout, load_layout
 from renderer.eye.alignment import ChiefRay, Normal, Tilt
 from renderer.field import fixed
@@ -46,7 +47,7 @@ def test_shared_chief_ray_eyes_match_twin(pick, W):
     a multiple of the 64-column block."""
     inp = pipeline.prepare(fixed(48.0, 64.0, 2.0), Pose(21.0, -6.0, 4.0), load_layout("lateral"),
                            Legendre([0.6, 0.0, 0.25, 0.0, 0.05]))
-    shared, _ = kernels._shared_group(kernels._fold(inp.R_eye_head, inp.R_head_world),
+    shared, _ = rows._shared_group(layout._fold(inp.R_eye_head, inp.R_head_world),
                                       inp.eye_params, inp.b_eye)
     assert shared.tolist() == [1.0, 1.0]
     out = _check_against_twin(inp, W, pick)
@@ -95,7 +96,7 @@ def test_cos_sqrt_polynomial_error_bound():
     poly = np.polynomial.polynomial.polyval(t, kernels.COS_SQRT_COEFFS)
     err = np.max(np.abs(poly - np.cos(np.sqrt(t))))
     assert err <= 9e-15 < kernels.COS_MARGIN / 1000
-    got = np.array([kernels._cos_sqrt(x) for x in t[::20000]])
+    got = np.array([rows._cos_sqrt(x) for x in t[::20000]])
     np.testing.assert_allclose(got, np.cos(np.sqrt(t[::20000])), atol=1e-14)
 
 
@@ -113,7 +114,7 @@ def test_fov_slope_bounds_the_half_width_derivative(widths):
     slope = np.max(np.abs(np.gradient(w, phi)))
     p = np.zeros(kernels.PARAMS)
     p[kernels.P_NASAL:kernels.P_VENTRAL + 1] = nas, tem, dor, ven
-    bound = kernels._fov_slope(p)
+    bound = rows._fov_slope(p)
     assert slope <= bound * (1 + 1e-6) + 1e-9  # 1e-9: rounding of the numerical derivative
     if len(set(widths)) == 1:
         assert bound == 0.0
@@ -123,7 +124,7 @@ def test_fov_slope_bounds_the_half_width_derivative(widths):
 @pytest.mark.parametrize("T", [1, 2, 3, 8])
 def test_item_order_is_a_permutation(nblk, T):
     """Every block of rows is taken by exactly one work item, whatever the thread count."""
-    order = kernels._item_order(nblk, T)
+    order = rows._item_order(nblk, T)
     assert sorted(order.tolist()) == list(range(nblk))
 
 
@@ -165,7 +166,7 @@ def test_vectorisable_atan2_matches_numpy():
     pts = np.vstack([pts, np.c_[np.sin(ring), np.cos(ring)],
                      [[0.0, 0.0], [0.0, 1.0], [0.0, -1.0], [1.0, 0.0], [-1.0, 0.0],
                       [1.0, 1.0], [-1.0, -1.0], [1e-300, -1.0]]])
-    got = np.array([kernels._atan2(y, x) for y, x in pts])
+    got = np.array([sampling._atan2(y, x) for y, x in pts])
     want = np.arctan2(pts[:, 0], pts[:, 1])
     # the sign of a zero y is not kept: −π and π name the same direction
     diff = np.abs(np.angle(np.exp(1j * (got - want))))

@@ -18,12 +18,11 @@ from dataclasses import dataclass, fields
 import numpy as np
 
 from ...errors import MagretinaError
+# the kernel mode codes are defined once, beside the packed layout the kernels read
+from ...kernels.layout import MODE_AXIAL
 from ...response.base import LUT_SIZE, lut_nodes
 
 AXES = ("normal", "chief-ray")
-
-#: Kernel mode codes (see :mod:`renderer.kernels`).
-MODE_AXIAL, MODE_RATIO, MODE_FULL_MERIDIAN, MODE_FULL_FIXED = 0, 1, 2, 3
 
 
 def axial_response(response):

@@ -7,7 +7,9 @@ from dataclasses import dataclass
 import numpy as np
 
 from ...errors import MagretinaError, check_range
-from .base import MODE_AXIAL, MODE_FULL_FIXED, MODE_FULL_MERIDIAN, Alignment
+from ...kernels.layout import (MODE_AXIAL, MODE_FULL_FIXED, MODE_FULL_MERIDIAN, P_COS_PSI,
+                               P_SIN_PSI)
+from .base import Alignment
 
 IN_PLANE = ("meridian", "fixed", "random")
 
@@ -48,4 +50,4 @@ class FullFrame(Alignment):
 
     def kernel_slots(self) -> dict:
         p = np.radians(self.in_plane_deg)
-        return {14: np.cos(p), 15: np.sin(p)}
+        return {P_COS_PSI: np.cos(p), P_SIN_PSI: np.sin(p)}

@@ -7,7 +7,8 @@ from dataclasses import dataclass
 import numpy as np
 
 from ...errors import check_range
-from .base import MODE_RATIO, Alignment
+from ...kernels.layout import MODE_RATIO, P_RB0, P_RB1, P_RB2
+from .base import Alignment
 
 
 @dataclass(frozen=True)
@@ -36,9 +37,9 @@ class Ratio(Alignment):
 
     def kernel_slots(self) -> dict:
         d, c = np.radians(self.delta_deg), np.radians(self.chi_deg)
-        return {11: np.cos(d), 12: np.sin(d) * np.cos(c), 13: np.sin(d) * np.sin(c)}
+        return {P_RB0: np.cos(d), P_RB1: np.sin(d) * np.cos(c), P_RB2: np.sin(d) * np.sin(c)}
 
     def population_b_axes(self, axes, e1, e2) -> np.ndarray:
         """Population B's axes (N, 3) from the base axes and in-plane frame (N, 3) each."""
         s = self.kernel_slots()
-        return s[11] * axes + s[12] * e1 + s[13] * e2
+        return s[P_RB0] * axes + s[P_RB1] * e1 + s[P_RB2] * e2

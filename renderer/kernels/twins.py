@@ -1,0 +1,230 @@
+"""Plain NumPy reference twins of the kernels, and the reference eye geometry.
+
+For: the same maths as the compiled kernels on explicit direction arrays, written for
+clarity: the reference in tests/kernels, the baseline in ``bench/``, and the receptor
+signal that :mod:`renderer.predict` builds on.  The NumPy geometry the eye package uses
+for its own receptor axes (:func:`ray_parameter`, :func:`normal_coefficients`,
+:func:`visible_numpy`) lives here too, so the twins need nothing above the kernel layer.
+Not for: speed (the kernels), or anything that reads an Eye or a Layout object.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from .layout import (MODE_AXIAL, MODE_FULL_FIXED, MODE_RATIO, P_COS_PSI, P_CUBE, P_E2, P_FULL,
+                     P_LUT, P_MODE, P_NASAL, P_Q, P_RB0, P_RB1, P_RB2, P_SIGN, P_SIN_PSI,
+                     P_VENTRAL, _tables)
+
+
+# ---------------------------------------------------------------------------
+# reference eye geometry (the eye package's own receptor axes use these too)
+# ---------------------------------------------------------------------------
+
+def ray_parameter(ux, q, e2=1.0):
+    """Distance t (units of b) from the nodal point to the retina along −u.
+
+    Parameters
+    ----------
+    ux : array_like
+        cos α, the view direction's component along the optic axis.
+    q : float
+        Nodal offset d/b (|q| < a/b: the nodal point inside the eye).
+    e2 : float
+        (b/a)², 1 for a spherical retina.
+
+    Returns
+    -------
+    ndarray
+        t > 0 with P = (q − t·ux, −t·u⊥) on the retina.
+    """
+    ux = np.clip(np.asarray(ux, dtype=np.float64), -1.0, 1.0)
+    s2 = 1.0 - ux * ux
+    # (q − t ux)² e2 + t² s2 = 1  →  k t² − 2 q e2 ux t + (q² e2 − 1) = 0,
+    # k = e2 ux² + s2
+    k = e2 * ux * ux + s2
+    half_b = q * e2 * ux
+    disc = half_b * half_b - k * (q * q * e2 - 1.0)
+    return (half_b + np.sqrt(disc)) / k
+
+
+def normal_coefficients(ux, q, e2=1.0):
+    """(A, B): the inward retinal normal at the ray's hit point is A·x̂ + B·u⊥.
+
+    Parameters
+    ----------
+    ux : array_like
+        cos α.
+    q, e2 : float
+        As :func:`ray_parameter`.
+
+    Returns
+    -------
+    A, B : ndarray
+        Same shape as ``ux``.  For a sphere (e2 = 1) A = t·ux − q, B = t.
+    """
+    ux = np.clip(np.asarray(ux, dtype=np.float64), -1.0, 1.0)
+    t = ray_parameter(ux, q, e2)
+    ax = (t * ux - q) * e2
+    bt = t
+    norm = np.sqrt(ax * ax + bt * bt * (1.0 - ux * ux))
+    return ax / norm, bt / norm
+
+
+def visible_numpy(u, half_widths, nasal_sign):
+    """NumPy twin of the kernels' field-of-view test (:func:`renderer.kernels.leaf._visible`).
+
+    A direction at angle α from the optic axis, in the meridian whose unit transverse
+    components towards nose and top are (cos φ, sin φ), is visible if
+    α ≤ w(φ) with w(φ)⁻² = cos²φ/w_h² + sin²φ/w_v², w_h the nasal or temporal and
+    w_v the dorsal or ventral half-width of that quadrant.  Since w(φ) lies between
+    the smallest and largest half-width, cos α ≥ cos w_min is visible and
+    cos α < cos w_max is not without computing α (the kernels' fast path).
+    """
+    nas, tem, dor, ven = (float(x) for x in half_widths)
+    ux = np.clip(u[..., 0], -1.0, 1.0)
+    h = nasal_sign * u[..., 1]
+    v = -u[..., 2]
+    s2 = h * h + v * v
+    alpha = np.arctan2(np.sqrt(s2), ux)
+    wh = np.where(h >= 0, nas, tem)
+    wv = np.where(v >= 0, dor, ven)
+    lim = (h * h / (wh * wh) + v * v / (wv * wv)) * alpha * alpha
+    on_axis = s2 == 0.0
+    full = min(nas, tem, dor, ven) >= np.pi - 1e-12
+    exact = np.where(on_axis, (ux > 0) | full, lim <= s2)
+    c_in, c_out = np.cos(min(nas, tem, dor, ven)), np.cos(max(nas, tem, dor, ven))
+    return np.where(ux >= c_in, True, np.where(ux < c_out, False, exact)) | full
+
+
+# ---------------------------------------------------------------------------
+# twins of the kernels
+# ---------------------------------------------------------------------------
+
+def lut_lookup_numpy(lut, c):
+    n1 = lut.shape[0] - 1
+    x = np.clip((np.asarray(c) + 1.0) * 0.5 * n1, 0.0, float(n1))
+    i = np.minimum(x.astype(np.int64), n1 - 1)
+    f = x - i
+    return lut[i] + f * (lut[i + 1] - lut[i])
+
+
+def cube_lookup_numpy(cube, dirs):
+    """NumPy twin of the cube-map lookup: (6, n, n) table, (N, 3) directions -> (N,)."""
+    d = np.asarray(dirs, dtype=np.float64)
+    ad = np.abs(d)
+    k = np.where((ad[:, 0] >= ad[:, 1]) & (ad[:, 0] >= ad[:, 2]), 0,
+                 np.where(ad[:, 1] >= ad[:, 2], 1, 2))
+    idx = np.arange(d.shape[0])
+    major = d[idx, k]
+    face = 2 * k + (major <= 0.0)
+    m = np.abs(major)
+    minor0 = np.where(k == 0, 1, 0)
+    minor1 = np.where(k == 2, 1, 2)
+    n1 = cube.shape[2] - 1
+    xu = (d[idx, minor0] / m + 1.0) * 0.5 * n1
+    xv = (d[idx, minor1] / m + 1.0) * 0.5 * n1
+    i = np.clip(xu.astype(np.int64), 0, n1 - 1)
+    j = np.clip(xv.astype(np.int64), 0, n1 - 1)
+    fu = xu - i
+    fv = xv - j
+    t = cube[face, i, j] * (1 - fv) + cube[face, i, j + 1] * fv
+    b = cube[face, i + 1, j] * (1 - fv) + cube[face, i + 1, j + 1] * fv
+    return t * (1 - fu) + b * fu
+
+
+def _visible_twin(u, p):
+    if p[P_FULL] != 0.0:
+        return np.ones(u.shape[0], bool)
+    return visible_numpy(u, p[P_NASAL:P_VENTRAL + 1], p[P_SIGN])
+
+
+def receptor_frames_numpy(u, p):
+    """Base axis a and in-plane frame (e1, e2) of the receptors, each (N, 3), eye frame,
+    for eye-frame view directions ``u`` (N, 3) and one eye's packed parameters."""
+    A, B = normal_coefficients(u[:, 0], p[P_Q], p[P_E2])
+    a = B[:, None] * u
+    a[:, 0] = A
+    if p[P_MODE] == MODE_FULL_FIXED:
+        g = np.array([0.0, 0.0, -1.0])
+        r = g - (a @ g)[:, None] * a
+        nr = np.linalg.norm(r, axis=1, keepdims=True)
+        e1 = np.where(nr > 1e-12, r / np.where(nr > 1e-12, nr, 1.0), np.array([1.0, 0.0, 0.0]))
+    else:
+        s = np.hypot(u[:, 1], u[:, 2])[:, None]
+        m = np.where(s > 0, np.concatenate([np.zeros_like(s), u[:, 1:]], 1) / np.where(s > 0, s, 1),
+                     np.array([0.0, 1.0, 0.0]))
+        e1 = -np.sum(a * m, 1)[:, None] * np.array([1.0, 0.0, 0.0]) + a[:, :1] * m
+    e2 = np.cross(a, e1)
+    return a, e1, e2
+
+
+def signal_numpy(dirs_head, R_eye_head, eye_params, b_eye, lut, pick=-1, cubes=None):
+    """NumPy twin of the per-direction signal: (N, 3) head-frame unit dirs -> (N,)."""
+    luts, cubes = _tables(eye_params, lut, cubes)
+    d = np.asarray(dirs_head, dtype=np.float64)
+    acc = np.zeros(d.shape[0])
+    cnt = np.zeros(d.shape[0])
+    for e in range(R_eye_head.shape[0]):
+        if pick >= 0 and e != pick:
+            continue
+        u = d @ R_eye_head[e].T
+        p = eye_params[e]
+        vis = _visible_twin(u, p)
+        a, e1, e2 = receptor_frames_numpy(u, p)
+        b = b_eye[e]
+        c = a @ b
+        table = luts[int(p[P_LUT])]
+        mode = p[P_MODE]
+        if mode == MODE_AXIAL:
+            val = lut_lookup_numpy(table, c)
+        elif mode == MODE_RATIO:
+            cb = p[P_RB0] * c + p[P_RB1] * (e1 @ b) + p[P_RB2] * (e2 @ b)
+            val = lut_lookup_numpy(table, c) / lut_lookup_numpy(table, cb)
+        else:
+            cp, sp = p[P_COS_PSI], p[P_SIN_PSI]
+            x = cp * e1 + sp * e2
+            y = cp * e2 - sp * e1
+            b_mol = np.stack([x @ b, y @ b, c], axis=1)
+            val = cube_lookup_numpy(cubes[int(p[P_CUBE])], b_mol)
+        acc += np.where(vis, val, 0.0)
+        cnt += vis
+    with np.errstate(invalid="ignore"):
+        return np.where(cnt > 0, acc / np.maximum(cnt, 1), np.nan)
+
+
+def pattern_numpy(dirs_view, R_head_view, R_eye_head, eye_params, b_eye, lut, pick=-1,
+                  cubes=None):
+    """NumPy twin of :func:`pattern_dirs`."""
+    d = np.asarray(dirs_view, dtype=np.float64)
+    return signal_numpy(d @ np.asarray(R_head_view).T, R_eye_head, eye_params, b_eye, lut, pick,
+                        cubes)
+
+
+def sample_equirect_numpy(scene, north_col, dirs_world):
+    """Bilinear lookup of a 2:1 world panorama at world directions (N, 3) -> (N, C)."""
+    SH, SW = scene.shape[:2]
+    d = np.asarray(dirs_world, dtype=np.float64)
+    az = np.arctan2(d[:, 1], d[:, 0])
+    el = np.arcsin(np.clip(-d[:, 2], -1.0, 1.0))
+    xs = north_col + az * (SW / (2 * np.pi)) - 0.5
+    ys = np.clip((0.5 * np.pi - el) * (SH / np.pi) - 0.5, 0.0, SH - 1.0)
+    x0f = np.floor(xs)
+    fx = (xs - x0f)[:, None]
+    x0 = x0f.astype(np.int64) % SW
+    x1 = (x0 + 1) % SW
+    y0 = np.minimum(ys.astype(np.int64), max(SH - 2, 0))
+    fy = (ys - y0)[:, None]
+    y1 = np.minimum(y0 + 1, SH - 1)
+    s = scene.astype(np.float64)
+    top = s[y0, x0] * (1 - fx) + s[y0, x1] * fx
+    bot = s[y1, x0] * (1 - fx) + s[y1, x1] * fx
+    return top * (1 - fy) + bot * fy
+
+
+def modulate_numpy(px, s, inv_mean, gain, outside):
+    """NumPy twin of the modulation step: px (N, C), s (N,) -> (N, C)."""
+    k = 1.0 + gain * (s * inv_mean - 1.0)
+    seen = ~np.isnan(s)
+    out = np.where(seen[:, None], np.clip(px * k[:, None], 0.0, 1.0), px * outside)
+    return out
