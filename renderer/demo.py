@@ -61,15 +61,26 @@ def _label(img_u8, text):
     return np.asarray(im)
 
 
-def run_demo(out_dir="outputs/demo", width=1024, force=False, progress=True):
-    """Render the demo into ``out_dir``; returns the list of written paths."""
+def run_demo(out_dir="outputs/demo", width=1024, force=False, progress=True, display=None,
+             dither="none", dither_seed=0):
+    """Render the demo into ``out_dir``; returns the list of written paths.
+
+    ``display`` (a :class:`renderer.display.Display`, default 8-bit sRGB), ``dither`` and
+    ``dither_seed`` choose the stimulus encoding (see :mod:`renderer.dither`); every PNG
+    carries text chunks describing what made it.
+    """
     from tqdm import tqdm
 
     import renderer
     from .composite import pattern_grey, to_uint8_srgb
+    from .display import SRGB8
+    from .dither import frame_seed, quantise
     from .eye import load_layout
     from .field import igrf
-    from .io import atomic_write_bytes, atomic_write_json, atomic_write_text, png_bytes
+    from .io import (atomic_write_bytes, atomic_write_json, atomic_write_text, display_png_bytes,
+                     write_srgb8_codes)
+    from .pngmeta import label_chunks
+    from .provenance import frame_params
     from .pose import Pose
     from .response import Legendre
     from .scene import dusk
@@ -81,15 +92,19 @@ def run_demo(out_dir="outputs/demo", width=1024, force=False, progress=True):
     layout = load_layout("lateral")
     response = Legendre(LEGENDRE)
     scene = dusk(width)
+    display = display or SRGB8
     files = []
 
-    def save(rel, lin, label=None):
-        u8 = to_uint8_srgb(lin)
-        if label:
-            u8 = _label(u8, label)
-        atomic_write_bytes(os.path.join(out_dir, rel), png_bytes(u8))
+    def save(rel, lin, view, pose, what):
+        params = frame_params(field, pose, layout, response, view, GAIN, "singlet", display,
+                              dither, dither_seed if dither != "none" else None, temporal=None,
+                              scenario="invented demo site", file=rel)
+        codes = quantise(display, lin, dither, frame_seed(dither_seed, len(files)))
+        labels = label_chunks(f"demo: {what}; codes for display {display.kind} "
+                              f"{display.bits}-bit", CAUTION, params)
+        atomic_write_bytes(os.path.join(out_dir, rel), display_png_bytes(codes, display, labels))
         files.append(rel)
-        return u8
+        return to_uint8_srgb(lin)
 
     world = WorldPanorama(width)
     thumbs = []
@@ -97,20 +112,26 @@ def run_demo(out_dir="outputs/demo", width=1024, force=False, progress=True):
         pose = Pose(yaw_deg=yaw)
         tag = f"heading{yaw:03d}"
         img = renderer.render(field, pose, layout, response, world, scene=scene, gain=GAIN)
-        u8 = save(f"world_{tag}.png", img)
+        u8 = save(f"world_{tag}.png", img, world, pose,
+                  f"world panorama at heading {yaw} deg on the dusk scene")
         thumbs.append(_label(u8[::4, ::4].copy(), f"heading {yaw} deg"))
         sig, mean = renderer.render_signal(field, pose, layout, response, world)
-        save(f"pattern_{tag}.png", pattern_grey(sig, mean, GAIN))
+        save(f"pattern_{tag}.png", pattern_grey(sig, mean, GAIN), world, pose,
+             f"the modulation alone on uniform grey, heading {yaw} deg")
         for eye in ("left", "right"):
-            disc = renderer.render(field, pose, layout, response, EyeDisc(eye, size=width // 3),
-                                   scene=scene, gain=GAIN)
-            save(f"eye_{eye}_{tag}.png", disc)
-    head = renderer.render(field, Pose(0.0), layout, response, HeadPanorama(width), scene=scene,
-                           gain=GAIN)
-    save("head_heading000.png", head)
+            dview = EyeDisc(eye, size=width // 3)
+            disc = renderer.render(field, pose, layout, response, dview, scene=scene, gain=GAIN)
+            save(f"eye_{eye}_{tag}.png", disc, dview, pose,
+                 f"{eye} eye's field at heading {yaw} deg")
+    hview = HeadPanorama(width)
+    head = renderer.render(field, Pose(0.0), layout, response, hview, scene=scene, gain=GAIN)
+    save("head_heading000.png", head, hview, Pose(0.0), "head-frame panorama at heading 0 deg")
     rows = [np.concatenate(thumbs[i:i + 2], axis=1) for i in range(0, len(thumbs), 2)]
     sheet = np.concatenate(rows, axis=0)
-    atomic_write_bytes(os.path.join(out_dir, "contact_sheet.png"), png_bytes(sheet))
+    write_srgb8_codes(os.path.join(out_dir, "contact_sheet.png"), sheet, label_chunks(
+        "demo contact sheet: world panoramas at eight headings, labelled", CAUTION,
+        {"site": SITE, "headings_deg": list(HEADINGS_DEG), "gain": GAIN},
+        warning="figure with burned-in labels; not a stimulus"))
     files.append("contact_sheet.png")
     info = {
         "caution": CAUTION,
@@ -121,7 +142,11 @@ def run_demo(out_dir="outputs/demo", width=1024, force=False, progress=True):
         "gain": GAIN,
         "headings_deg": list(HEADINGS_DEG),
         "view_width": width,
-        "encodings": {"*.png": "8-bit sRGB (IEC 61966-2-1)"},
+        "display": display.describe(),
+        "dither": {"method": dither, "seed": dither_seed if dither != "none" else None},
+        "encodings": {"*.png": "codes of the display above (default 8-bit sRGB, IEC "
+                               "61966-2-1, sRGB chunk); contact_sheet.png is a labelled "
+                               "8-bit sRGB figure"},
         "magretina_version": renderer.__version__,
     }
     atomic_write_json(os.path.join(out_dir, "demo.json"), info)

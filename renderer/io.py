@@ -67,11 +67,13 @@ def _jsonable(o):
     return str(o)
 
 
-def png_bytes(array) -> bytes:
+def png_bytes(array, chunks=()) -> bytes:
     """Encode a uint8 or uint16 (H, W[, C]) array as PNG bytes.
 
     8-bit goes through imageio/Pillow; 16-bit through pypng, because Pillow cannot
-    write (or read back) 16-bit RGB.  No gamma or sRGB chunk is written.
+    write (or read back) 16-bit RGB.  ``chunks`` (ready-made ancillary chunks, see
+    :mod:`renderer.pngmeta`) are inserted after IHDR; without them the file carries
+    no colour chunk.
     """
     a = np.asarray(array)
     buf = io.BytesIO()
@@ -82,13 +84,62 @@ def png_bytes(array) -> bytes:
         C = 1 if a.ndim == 2 else a.shape[2]
         png.Writer(W, H, greyscale=(C == 1), alpha=(C in (2, 4)), bitdepth=16,
                    compression=6).write(buf, a.reshape(H, W * C))
-        return buf.getvalue()
-    if a.dtype != np.uint8:
-        raise TypeError(f"png_bytes needs uint8 or uint16, got {a.dtype}")
-    import imageio.v3 as iio
+    elif a.dtype == np.uint8:
+        import imageio.v3 as iio
 
-    iio.imwrite(buf, a, extension=".png")
-    return buf.getvalue()
+        iio.imwrite(buf, a, extension=".png")
+    else:
+        raise TypeError(f"png_bytes needs uint8 or uint16, got {a.dtype}")
+    data = buf.getvalue()
+    if chunks:
+        from .pngmeta import insert_chunks
+
+        data = insert_chunks(data, list(chunks))
+    return data
+
+
+def codes_to_samples(codes, bits) -> np.ndarray:
+    """Display codes -> PNG samples: 8 and 16 bits as they are; 10-bit codes in 16-bit
+    samples by left bit replication (c << 6 | c >> 4, the PNG specification's
+    recommended scaling, so c = sample >> 6 recovers them; declared by sBIT)."""
+    c = np.asarray(codes)
+    if bits == 10:
+        c = c.astype(np.uint16)
+        return (c << 6) | (c >> 4)
+    return c
+
+
+def display_png_bytes(codes, display, labels=()) -> bytes:
+    """PNG bytes of display codes with the chunks that declare their encoding.
+
+    Parameters
+    ----------
+    codes : (H, W, 3) integer codes of ``display`` (from :func:`renderer.dither.quantise`)
+    display : renderer.display.Display (sRGB: sRGB/gAMA/cHRM chunks; gamma: gAMA;
+        a measured table: no colour chunk, the codes belong to that display only)
+    labels : text chunks (:func:`renderer.pngmeta.label_chunks`)
+    """
+    from . import pngmeta
+
+    colour = []
+    if display.kind == "srgb":
+        colour = pngmeta.srgb_chunks()
+    elif display.kind == "gamma":
+        colour = pngmeta.gamma_chunks(display.gamma)
+    if display.bits == 10:
+        colour.append(pngmeta.sbit_chunk(10))
+    samples = codes_to_samples(codes, display.bits)
+    dtype = np.uint8 if display.bits == 8 else np.uint16
+    return png_bytes(np.asarray(samples, dtype), colour + list(labels))
+
+
+def linear16_png_bytes(lin, labels=()) -> bytes:
+    """16-bit linear-light PNG bytes (code / 65535 = relative linear light), declared
+    linear by gAMA 1.0 and cICP."""
+    from .composite import to_uint16_linear
+    from .pngmeta import linear_chunks
+
+    return png_bytes(to_uint16_linear(lin), linear_chunks() + list(labels))
 
 
 def _read_png16(path):
@@ -105,18 +156,32 @@ def _read_png16(path):
     return a
 
 
-def write_png8_srgb(path, lin) -> str:
-    """Write a linear float image as an 8-bit sRGB PNG, atomically."""
+def write_png8_srgb(path, lin, labels=()) -> str:
+    """Write a linear float image as an 8-bit sRGB PNG (sRGB chunk), atomically."""
+    from . import pngmeta
     from .composite import to_uint8_srgb
 
-    return atomic_write_bytes(path, png_bytes(to_uint8_srgb(lin)))
+    return atomic_write_bytes(path, png_bytes(to_uint8_srgb(lin),
+                                              pngmeta.srgb_chunks() + list(labels)))
 
 
-def write_png16_linear(path, lin) -> str:
-    """Write a linear float image as a 16-bit linear PNG, atomically (no gamma chunk)."""
-    from .composite import to_uint16_linear
+def write_srgb8_codes(path, u8, labels=()) -> str:
+    """Write an 8-bit sRGB-coded image (already quantised) with the sRGB chunk, atomically."""
+    from . import pngmeta
 
-    return atomic_write_bytes(path, png_bytes(to_uint16_linear(lin)))
+    return atomic_write_bytes(path, png_bytes(np.asarray(u8, np.uint8),
+                                              pngmeta.srgb_chunks() + list(labels)))
+
+
+def sha256_hex(data: bytes) -> str:
+    import hashlib
+
+    return hashlib.sha256(data).hexdigest()
+
+
+def write_png16_linear(path, lin, labels=()) -> str:
+    """Write a linear float image as a 16-bit linear PNG (gAMA 1.0, cICP), atomically."""
+    return atomic_write_bytes(path, linear16_png_bytes(lin, labels))
 
 
 def read_image_linear(path) -> np.ndarray:

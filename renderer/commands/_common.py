@@ -135,3 +135,42 @@ def refuse_overwrite(paths, force):
     existing = [p for p in paths if p and os.path.exists(p)]
     if existing and not force:
         raise MagretinaError(f"{existing[0]} already exists; pass --force to overwrite")
+
+
+def add_display_args(p):
+    g = p.add_argument_group("display and quantisation")
+    g.add_argument("--display", default="srgb",
+                   help="display model: srgb (default) | gamma | table")
+    g.add_argument("--gamma", type=float, default=None, help="exponent of --display gamma (0..10]")
+    g.add_argument("--display-table", default=None,
+                   help="measured table for --display table: CSV with header code,cd_m2 or "
+                        "code,red_cd_m2,green_cd_m2,blue_cd_m2")
+    g.add_argument("--black-cd-m2", type=float, default=None,
+                   help="luminance of code 0, cd/m² (srgb/gamma; default 0)")
+    g.add_argument("--white-cd-m2", type=float, default=None,
+                   help="luminance of full white, cd/m² (srgb/gamma; default 80)")
+    g.add_argument("--bits", type=int, default=8, help="display bit depth: 8, 10 or 16")
+    g.add_argument("--dither", default="none",
+                   help="quantiser: none (round) | noise (noisy-bit) | ordered (Bayer)")
+    g.add_argument("--dither-seed", type=int, default=0, help="seed of the dither (default 0)")
+
+
+def display_from_args(a):
+    """The display model and quantiser of parsed arguments: (Display, method, seed)."""
+    from ..display import make_display
+    from ..dither import check_method
+
+    d = make_display(a.display, a.bits, a.black_cd_m2, a.white_cd_m2, a.gamma, a.display_table,
+                     where="display")
+    method = check_method(a.dither, "--dither")
+    if a.dither_seed is not None and a.dither_seed < 0:
+        raise MagretinaError(f"--dither-seed {a.dither_seed}: must be >= 0")
+    return d, method, a.dither_seed
+
+
+def check_png_suffix(flag, path):
+    """Refuse an output path that does not end in .png (nothing else is written)."""
+    if path and not str(path).lower().endswith(".png"):
+        ext = os.path.splitext(str(path))[1] or "(none)"
+        raise MagretinaError(f"{flag} {path}: suffix {ext} is not written; only .png files "
+                             f"(PNG) are")

@@ -21,10 +21,20 @@ def _add(p):
     _common.add_pose_args(p)
     _common.add_model_args(p)
     _common.add_view_args(p)
+    _common.add_display_args(p)
     g = p.add_argument_group("output")
-    g.add_argument("--out", help="8-bit sRGB PNG of the composited frame")
-    g.add_argument("--png16", help="also write a 16-bit linear PNG here")
-    g.add_argument("--pattern", help="also write the pattern alone on uniform grey here (8-bit sRGB)")
+    g.add_argument("--out", help="PNG of the composited frame in the display's codes (8-bit sRGB "
+                                 "by default)")
+    g.add_argument("--png16", help="also write a 16-bit linear-light PNG here")
+    g.add_argument("--pattern", help="also write the pattern alone on uniform grey here (display "
+                                     "codes, like --out)")
+    g.add_argument("--grey", default="0.5",
+                   help="luminance of the --pattern background: relative 0..1, 'X cd/m2' or "
+                        "'F white' (default 0.5)")
+    g.add_argument("--figure", help="also write an annotated figure here (for papers; never a "
+                                    "stimulus)")
+    g.add_argument("--no-sidecar", action="store_true",
+                   help="do not write the JSON sidecar beside --out")
     g.add_argument("--outside", type=float, default=0.25,
                    help="luminance factor where no eye sees (0..1, default 0.25)")
     g.add_argument("--force", action="store_true", help="overwrite existing files")
@@ -60,23 +70,50 @@ def _apply_config(a):
         if getattr(a, k) == getattr(defaults, k):  # not given on the command line
             setattr(a, k, v)
     base = os.path.dirname(os.path.abspath(a.config))
-    for k in ("out", "png16", "pattern", "scene", "response_csv", "layout"):
+    for k in ("out", "png16", "pattern", "figure", "scene", "response_csv", "layout",
+              "display_table"):
         v = getattr(a, k)
         if k in data and isinstance(v, str) and not os.path.isabs(v) and (k != "layout" or v.endswith(".toml")):
             setattr(a, k, os.path.join(base, v))
     return a
 
 
+def _grey(value, display):
+    from ..display import parse_target
+
+    try:
+        value = float(value)
+    except (TypeError, ValueError):
+        pass
+    return parse_target(value, display, where="--grey")
+
+
+def sidecar_path(out):
+    return os.path.splitext(out)[0] + ".json"
+
+
 def run(a) -> int:
+    import numpy as np
+
     import renderer
-    from ..composite import pattern_grey
-    from ..io import write_png8_srgb, write_png16_linear
+    from ..composite import modulation_map, pattern_grey, to_uint8_srgb
+    from ..display import displayed_stats
+    from ..dither import frame_seed, quantise
+    from ..io import atomic_write_bytes, atomic_write_json, display_png_bytes, sha256_hex, \
+        write_png16_linear, write_srgb8_codes
+    from ..pngmeta import label_chunks
     from ..pose import Pose
+    from ..provenance import CAUTION, frame_params
 
     a = _apply_config(a)
     if not a.out:
         raise MagretinaError("give --out FILE.png (or out = \"...\" in the config)")
-    _common.refuse_overwrite([a.out, a.png16, a.pattern], a.force)
+    for flag in ("out", "png16", "pattern", "figure"):
+        _common.check_png_suffix("--" + flag, getattr(a, flag))
+    sidecar = None if a.no_sidecar else sidecar_path(a.out)
+    _common.refuse_overwrite([a.out, a.png16, a.pattern, a.figure, sidecar], a.force)
+    display, method, seed = _common.display_from_args(a)
+    grey = _grey(a.grey, display)
     field = _common.field_from_args(a)
     pose = Pose(a.yaw, a.pitch, a.roll)
     layout = _common.layout_from_args(a)
@@ -85,15 +122,67 @@ def run(a) -> int:
     scene = _common.scene_from_args(a, view.shape[1])
     img = renderer.render(field, pose, layout, response, view, scene=scene, gain=a.gain,
                           product=a.product, outside=a.outside)
-    write_png8_srgb(a.out, img)
-    written = [a.out]
+    params = frame_params(field, pose, layout, response, view, a.gain, a.product, display,
+                          method, seed if method != "none" else None,
+                          temporal=None, outside=a.outside, pattern_grey=grey)
+    what = (f"{type(view).__name__} frame, heading {a.yaw:g} deg, composited onto the scene; "
+            f"codes for display {display.kind} {display.bits}-bit")
+    warn = None if display.kind != "table" else (
+        "code values for the measured display in the parameters, not sRGB")
+    # One seed per output, so the frame and the pattern get independent dither.
+    codes = quantise(display, img, method, frame_seed(seed, 0, view=0))
+    data = display_png_bytes(codes, display, label_chunks(what, CAUTION, params, warning=warn))
+    atomic_write_bytes(a.out, data)
+    written = [(a.out, "frame", data)]
+    stats = {"frame": displayed_stats(display, img, codes)}
     if a.png16:
-        write_png16_linear(a.png16, img)
-        written.append(a.png16)
-    if a.pattern:
+        write_png16_linear(a.png16, img, label_chunks(
+            what.split("; codes")[0] + "; 16-bit linear light (code/65535)", CAUTION, params))
+        written.append((a.png16, "linear16", None))
+    sig = mean = None
+    if a.pattern or a.figure or sidecar:
         sig, mean = renderer.render_signal(field, pose, layout, response, view, a.product)
-        write_png8_srgb(a.pattern, pattern_grey(sig, mean, a.gain))
-        written.append(a.pattern)
+        pat = pattern_grey(sig, mean, a.gain, grey=grey)
+        pcodes = quantise(display, pat, method, frame_seed(seed, 0, view=1))
+        stats["pattern"] = displayed_stats(display, pat, pcodes, mask=~np.isnan(sig))
+        if a.pattern:
+            pdata = display_png_bytes(pcodes, display, label_chunks(
+                f"{type(view).__name__} pattern alone on a uniform field of relative luminance "
+                f"{grey:g}; codes for display {display.kind} {display.bits}-bit", CAUTION, params,
+                warning=warn))
+            atomic_write_bytes(a.pattern, pdata)
+            written.append((a.pattern, "pattern", pdata))
+    if a.figure:
+        from ..figure import annotate
+
+        m = modulation_map(sig, mean, a.gain)
+        eyes = [e.name for e in layout.eyes] if view_pick(view) is None else [str(view_pick(view))]
+        fig = annotate(to_uint8_srgb(img), f"heading {a.yaw:g} deg, {type(view).__name__}",
+                       eyes, (np.nanmin(m), np.nanmax(m)) if np.isfinite(m).any() else (0, 0),
+                       CAUTION, grey=grey)
+        write_srgb8_codes(a.figure, fig, label_chunks("annotated figure of a " + what, CAUTION, params,
+                                     warning="figure for publication; not a stimulus (annotation "
+                                             "band, display model not applied)"))
+        written.append((a.figure, "figure", None))
+    if sidecar:
+        files = []
+        for path, role, data in written:
+            with open(path, "rb") as fh:
+                blob = fh.read()
+            files.append({"path": os.path.basename(path), "role": role, "bytes": len(blob),
+                          "sha256": sha256_hex(blob)})
+        atomic_write_json(sidecar, {"caution": CAUTION, "parameters": params, "files": files,
+                                    "displayed": stats,
+                                    "notes": "displayed = after quantisation, through the "
+                                             "display model; intended = the continuous image. "
+                                             "frame: every pixel; pattern: the pattern alone on "
+                                             "the --grey field over the pixels an eye sees."})
+        written.append((sidecar, "sidecar", None))
     for w in written:
-        print(w)
+        print(w[0])
     return 0
+
+
+def view_pick(view):
+    return getattr(view, "pick", None) if hasattr(view, "pick") else getattr(view, "eye", None)
+
