@@ -23,6 +23,7 @@ COMMANDS = [
     "response",
     "spin-rf",
     "predict",
+    "orient",
     "report",
     "run",
     "new-study",

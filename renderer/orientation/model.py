@@ -295,9 +295,9 @@ class Predictor:
         self.counts = counts
         self.behaviour = behaviour
         G = int(n_headings)
-        if G < 36 or G > 7200:
-            raise MagretinaError(f"n_headings = {n_headings!r}: allowed 36..7200 (grid step "
-                                 f"10° .. 0.05°)")
+        if G < 36 or G > 7200 or G % 2:
+            raise MagretinaError(f"n_headings = {n_headings!r}: allowed even numbers 36..7200 "
+                                 f"(grid step 10° .. 0.05°)")
         self.G = G
         self.psi = 2 * math.pi * np.arange(G) / G
         self.template = self._counts(ambient.ned_T, "default")

@@ -135,12 +135,20 @@ def rayleigh_p(z, n):
 
     p ≈ exp(−z)·[1 + (2z − z²)/(4n) − (24z − 132z² + 76z³ − 9z⁴)/(288n²)] below
     n = 50 and exp(−z) above, as in astropy.stats.rayleightest; clipped to [0, 1].
+    The series is asymptotic and breaks down far in the tail of small samples (the
+    bracket falls below 1/2 and can turn negative); there the approximation of
+    Greenwood & Durand as given by Zar (eq. 27.4),
+    p = exp(sqrt(1 + 4n + 4(n² − R²)) − (1 + 2n)), R² = n z, is used instead.
     """
     z = float(z)
     tmp = 1.0
     if n < 50:
         tmp = (1.0 + (2.0 * z - z * z) / (4.0 * n)
                - (24.0 * z - 132.0 * z ** 2 + 76.0 * z ** 3 - 9.0 * z ** 4) / (288.0 * n * n))
+    if tmp < 0.5:
+        R2 = n * z
+        return float(min(1.0, math.exp(math.sqrt(max(1.0 + 4.0 * n + 4.0 * (n * n - R2), 0.0))
+                                       - (1.0 + 2.0 * n))))
     return float(min(1.0, max(0.0, math.exp(-z) * tmp)))
 
 

@@ -24,6 +24,8 @@ A study file has these tables (each documented in the example written by
     [output]     encodings and exports
     [metrics]    providers and their options
     [sweep]      combine = grid | zip, [[sweep.axis]] key, values | range | linspace
+    [orientation] conditions, hypotheses, preferred heading of an orientation
+                 experiment (optional; see renderer.study.orientation)
 
 :func:`validate` returns the resolved configuration (plain dicts, every default
 filled in, so ``study.json`` states what was run) and collects every problem with
@@ -127,7 +129,7 @@ AXIS = {
 
 #: Top-level tables in the order they are resolved and written to study.json.
 SECTIONS = ("study", "site", "field", "pose", "layout", "response", "responses", "views", "scene",
-            "render", "sequence", "timeline", "output", "metrics", "sweep")
+            "render", "sequence", "timeline", "output", "metrics", "sweep", "orientation")
 
 DEFAULT_VIEWS = {"world": {"kind": "world-panorama", "width": 256}}
 
@@ -264,6 +266,11 @@ def validate(raw: dict, base_dir: str, problems: list) -> dict:
     _check_output(out, problems)
     out["metrics"] = _check_metrics(g("metrics"), problems)
     out["sweep"] = _check_sweep(g("sweep"), problems)
+    if "orientation" in raw:  # only when present, so other studies resolve as before
+        from .orientation import check_orientation
+
+        out["orientation"] = check_orientation(raw["orientation"], set(out["responses"]),
+                                               problems)
     return out
 
 

@@ -1,0 +1,365 @@
+"""The ``[orientation]`` table of a study file: conditions, hypotheses, preferred heading.
+
+Glue between a study's resolved configuration and :mod:`renderer.orientation`:
+
+* ``[orientation]``: ``preferred_heading_deg``, ``headings`` (grid size), ``kappa``
+  (behavioural von Mises concentration, 0 = none), ``non_orienting`` (share),
+  ``monte_carlo`` (simulated animals per condition, 0 = off), ``seed``, ``gain``
+  (modulation gain of the counts; default ``[render] gain``);
+* ``[orientation.receptors]``: the mosaic and count options of
+  ``[metrics.options.prediction]`` (:data:`renderer.predict.OPTION_KEYS`);
+* ``[[orientation.condition]]``: ``name`` and ``steps``, an array of coil actions
+  exactly as in ``[timeline]`` but without ``t_s`` (``rotate``, ``invert``, ``scale``,
+  ``zero``, ``ambient``, ``response``, ``rf-on``, ``rf-off``), applied in order to
+  the ambient field with :data:`renderer.study.sequences.TIMELINE_ACTIONS`; a
+  response switch (``response``/``rf-on``) applies to every hypothesis;
+* ``[[orientation.hypothesis]]``: ``name``, ``response`` ("default" = ``[response]``
+  or a ``[responses.NAME]``), optional ``alignment`` (as ``[layout] alignment``),
+  ``description``;
+* ``[orientation.power]``: ``test`` ("v" toward the predicted heading, or
+  "rayleigh"), ``alpha``, ``target`` power, ``n_max``, ``n_sim``.
+
+Every key is sweepable with ``[[sweep.axis]]`` (e.g.
+``key = "orientation.receptors.flux_per_s"``, ``key = "field.inclination_deg"``):
+:func:`predict_plan` predicts each shot.  Outputs are predictions of a hypothetical
+model, never measurements.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+import os
+import numpy as np
+
+from ..errors import MagretinaError
+from .schema import REQUIRED, Key, check_table
+
+ORIENTATION = {
+    "preferred_heading_deg": Key(float, 0.0, lo=-360.0, hi=360.0, unit="degrees"),
+    "headings": Key(int, 360, lo=36, hi=7200, unit="grid headings (even)"),
+    "kappa": Key(float, 0.0, lo=0.0, hi=1e6),
+    "non_orienting": Key(float, 0.0, lo=0.0, hi=1.0, hi_open=True, unit="share"),
+    "monte_carlo": Key(int, 0, lo=0, hi=1_000_000, unit="simulated animals per condition"),
+    "seed": Key(int, 0, lo=0),
+    "gain": Key(float, None, lo=0.0, hi=1e6),
+}
+CONDITION = {"name": Key(str, REQUIRED), "steps": Key(list, [])}
+HYPOTHESIS = {"name": Key(str, REQUIRED), "response": Key(str, "default"),
+              "alignment": Key((str, dict), None), "description": Key(str, "")}
+POWER = {"test": Key(str, "v", choices=("v", "rayleigh")),
+         "alpha": Key(float, 0.05, lo=0.0, hi=1.0, lo_open=True, hi_open=True),
+         "target": Key(float, 0.8, lo=0.0, hi=1.0, lo_open=True, hi_open=True),
+         "n_max": Key(int, 100, lo=4, hi=10000, unit="animals"),
+         "n_sim": Key(int, 200, lo=10, hi=100000, unit="simulated experiments")}
+
+OUTPUT_JSON = "orientation.json"
+OUTPUT_CSV = "orientation.csv"
+
+
+def check_orientation(tbl, response_names, problems) -> dict:
+    """Validate ``[orientation]``; returns it resolved (problems appended with key paths)."""
+    from ..predict import OPTION_KEYS
+    from .sequences import STEP_KEYS, TIMELINE_ACTIONS
+
+    if not isinstance(tbl, dict):
+        problems.append("orientation: must be a table")
+        return {}
+    out = check_table("orientation", tbl, ORIENTATION, problems,
+                      extra_ok=("receptors", "condition", "hypothesis", "power"))
+    h = out.get("headings")
+    if isinstance(h, int) and h % 2:
+        problems.append(f"orientation.headings = {h}: must be even")
+    rec = out.get("receptors", {})
+    if not isinstance(rec, dict):
+        problems.append("orientation.receptors: must be a table")
+        rec = {}
+    for k in rec:
+        if k not in OPTION_KEYS:
+            problems.append(f"orientation.receptors.{k}: unknown key; allowed: "
+                            f"{', '.join(OPTION_KEYS)}")
+    out["receptors"] = dict(rec)
+    conds = out.get("condition", [])
+    if not isinstance(conds, list) or not conds:
+        problems.append("orientation.condition: give at least one [[orientation.condition]] "
+                        "(name, steps)")
+        conds = []
+    rc = []
+    names = set()
+    for i, c in enumerate(conds):
+        path = f"orientation.condition[{i}]"
+        cc = check_table(path, c, CONDITION, problems)
+        if cc.get("name") in names:
+            problems.append(f"{path}.name = {cc['name']!r}: used twice")
+        names.add(cc.get("name"))
+        steps = []
+        for j, s in enumerate(cc.get("steps", []) or []):
+            sp = f"{path}.steps[{j}]"
+            if not isinstance(s, dict) or s.get("action") not in TIMELINE_ACTIONS:
+                problems.append(f"{sp}.action = {s.get('action') if isinstance(s, dict) else s!r}: "
+                                f"allowed {', '.join(map(repr, TIMELINE_ACTIONS))}")
+                continue
+            ss = check_table(sp, s, {"action": Key(str, REQUIRED), **STEP_KEYS[s["action"]]},
+                             problems)
+            sel = ss.get("select")
+            if sel is not None and sel != "default" and sel not in response_names:
+                problems.append(f"{sp}.select = {sel!r}: allowed 'default'"
+                                + "".join(f", {n!r}" for n in sorted(response_names)))
+            steps.append(ss)
+        cc["steps"] = steps
+        rc.append(cc)
+    out["condition"] = rc
+    hyps = out.get("hypothesis", [])
+    if not isinstance(hyps, list) or not hyps:
+        problems.append("orientation.hypothesis: give at least one [[orientation.hypothesis]] "
+                        "(name, response)")
+        hyps = []
+    rh = []
+    hn = set()
+    for i, hh in enumerate(hyps):
+        path = f"orientation.hypothesis[{i}]"
+        x = check_table(path, hh, HYPOTHESIS, problems)
+        if x.get("name") in hn:
+            problems.append(f"{path}.name = {x['name']!r}: used twice")
+        hn.add(x.get("name"))
+        r = x.get("response")
+        if r is not None and r != "default" and r not in response_names:
+            problems.append(f"{path}.response = {r!r}: allowed 'default'"
+                            + "".join(f", {n!r}" for n in sorted(response_names))
+                            + " (define alternatives as [responses.NAME])")
+        if x.get("alignment") is not None:
+            from ..eye.alignment import parse_alignment
+
+            try:
+                parse_alignment(x["alignment"])
+            except MagretinaError as exc:
+                problems.append(f"{path}.alignment: {exc}")
+        rh.append(x)
+    out["hypothesis"] = rh
+    out["power"] = check_table("orientation.power", out.get("power", {}), POWER, problems)
+    return out
+
+
+# ----------------------------------------------------------------------------- building
+def conditions_of(ocfg, ambient_ned_T):
+    """:class:`renderer.orientation.model.Condition` list from the resolved table."""
+    from ..orientation.model import Condition
+    from .sequences import TIMELINE_ACTIONS, CoilState
+
+    out = []
+    for c in ocfg["condition"]:
+        st = CoilState()
+        for s in c["steps"]:
+            st = TIMELINE_ACTIONS[s["action"]](st, s)
+        out.append(Condition(c["name"], st.apply(np.asarray(ambient_ned_T, float)),
+                             st.response, st.label()))
+    return out
+
+
+def hypotheses_of(cfg, base_dir):
+    """:class:`renderer.orientation.model.Hypothesis` list (layouts with their alignment)."""
+    from ..orientation.model import Hypothesis
+    from .build import build_layout, build_response
+
+    layout = build_layout(cfg["layout"], base_dir)
+    responses = {"default": build_response(cfg["response"], base_dir)}
+    products = {"default": cfg["response"].get("product", "singlet")}
+    for name, r in cfg["responses"].items():
+        responses[name] = build_response(r, base_dir)
+        products[name] = r.get("product", "singlet")
+    out = []
+    for h in cfg["orientation"]["hypothesis"]:
+        lay = layout
+        if h.get("alignment") is not None:
+            lay = layout.with_alignment(h["alignment"])
+        key = h.get("response", "default")
+        alts = {k: v for k, v in responses.items() if k != "default"}
+        out.append(Hypothesis(h["name"], lay, responses[key], products[key], alts,
+                              h.get("description", "")))
+    return out
+
+
+def predict_config(cfg, base_dir, ambient_ned_T, monte_carlo=None, power=True, seed=None):
+    """Predict every hypothesis in every condition for one shot configuration.
+
+    Returns
+    -------
+    (predictions, results) : predictions = dict hypothesis -> dict condition ->
+        Prediction; results = JSON-ready dict (conditions, hypotheses, rows,
+        power, caution).
+    """
+    from ..mosaic import build_mosaic
+    from ..orientation.model import CAUTION, Behaviour, Predictor
+    from ..orientation.statistics import describe
+    from ..predict import options_to_models
+
+    o = cfg["orientation"]
+    gain = o.get("gain")
+    gain = float(cfg["render"]["gain"] if gain is None else gain)
+    spec, counts = options_to_models(dict(o["receptors"]), gain)
+    behaviour = Behaviour(o["preferred_heading_deg"], o["kappa"], o["non_orienting"],
+                          cfg["pose"]["pitch_deg"], cfg["pose"]["roll_deg"])
+    conds = conditions_of(o, ambient_ned_T)
+    hyps = hypotheses_of(cfg, base_dir)
+    from ..field import FieldVector
+
+    ambient = FieldVector(np.asarray(ambient_ned_T, float), model="ambient")
+    mc = o["monte_carlo"] if monte_carlo is None else int(monte_carlo)
+    seed = o["seed"] if seed is None else int(seed)
+    preds, rows = {}, []
+    mosaics = {}
+    for hi, h in enumerate(hyps):
+        if h.layout not in mosaics:
+            mosaics[h.layout] = build_mosaic(h.layout, spec)
+        pr = Predictor(h, ambient, mosaics[h.layout], counts, behaviour, o["headings"])
+        preds[h.name] = {}
+        for ci, c in enumerate(conds):
+            p = pr.predict(c)
+            preds[h.name][c.name] = p
+            row = {"hypothesis": h.name, "condition": c.name, "manipulation": c.label,
+                   "mean_deg": p.stats["mean_deg"], "r": p.stats["r"],
+                   "circular_sd_deg": p.stats["circular_sd_deg"],
+                   "sensory_mean_deg": p.sensory["mean_deg"], "sensory_r": p.sensory["r"],
+                   "sensory_circular_sd_deg": p.sensory["circular_sd_deg"]}
+            if mc:
+                rng = np.random.default_rng([seed, hi, ci])
+                d = describe(pr.monte_carlo(c, mc, rng))
+                row.update({"mc_n": mc, "mc_mean_deg": d["mean_deg"], "mc_r": d["r"],
+                            "mc_circular_sd_deg": d["circular_sd_deg"]})
+            rows.append(row)
+    results = {"caution": CAUTION,
+               "model": {"receptors": spec.describe(), "counts": counts.describe(),
+                         "behaviour": {"preferred_heading_deg": behaviour.preferred_heading_deg,
+                                       "kappa": behaviour.kappa,
+                                       "non_orienting": behaviour.non_orienting},
+                         "headings": o["headings"], "ambient_ned_T": list(map(float, ambient.ned_T))},
+               "conditions": [{"name": c.name, "manipulation": c.label,
+                               "b_ned_uT": [x * 1e6 for x in c.b_ned_T],
+                               "response": c.response_key} for c in conds],
+               "hypotheses": [{"name": h.name, "description": h.description} for h in hyps],
+               "rows": rows}
+    if power:
+        results["power"] = power_table(preds, o["power"], seed)
+    return preds, results
+
+
+def power_table(preds, pcfg, seed=0) -> list:
+    """Animals needed per hypothesis and condition (test of ``[orientation.power]``),
+    and to tell the hypotheses apart (model comparison at fixed behaviour)."""
+    from ..orientation.model import sample_headings
+    from ..orientation.power import animals_needed, animals_to_discriminate
+
+    out = []
+    for h, byc in preds.items():
+        for c, p in byc.items():
+            exp = p.stats["mean_deg"]
+            if pcfg["test"] == "v" and not math.isfinite(exp):
+                out.append({"hypothesis": h, "condition": c, "test": "v", "n": None,
+                            "note": "uniform prediction: no expected heading"})
+                continue
+            res = animals_needed(lambda n, rng, p=p: sample_headings(p, n, rng), pcfg["target"],
+                                 pcfg["n_max"], test=pcfg["test"], alpha=pcfg["alpha"],
+                                 n_sim=pcfg["n_sim"], seed=seed,
+                                 expected_deg=exp if pcfg["test"] == "v" else None)
+            out.append({"hypothesis": h, "condition": c, "test": pcfg["test"], "n": res["n"],
+                        "target": pcfg["target"], "alpha": pcfg["alpha"], "curve": res["curve"]})
+    if len(preds) >= 2:
+        for h in preds:
+            res = animals_to_discriminate(preds, h, pcfg["target"], pcfg["n_max"],
+                                          n_sim=max(20, pcfg["n_sim"] // 4), seed=seed)
+            out.append({"hypothesis": h, "condition": "all", "test": "model comparison",
+                        "n": res["n"], "target": pcfg["target"], "curve": res["curve"]})
+    return out
+
+
+def predict_plan(study, monte_carlo=None, power=True):
+    """Predictions for every shot of a study (sweeps included).
+
+    Returns
+    -------
+    (per_shot, document) : per_shot = list of (shot, predictions); document =
+        JSON-ready dict with one entry per shot (``shot_id``, ``params``, results).
+    """
+    from .expand import plan
+
+    if not study.resolved.get("orientation"):
+        raise MagretinaError(f"{study.path}: no [orientation] table (conditions, hypotheses, "
+                             f"preferred heading); see the example study")
+    p = plan(study)
+    per_shot, shots = [], []
+    for shot in p.shots:
+        amb = np.asarray(shot.frames.ambient_ned_T, float)[0]
+        preds, res = predict_config(shot.config, study.base_dir, amb, monte_carlo, power,
+                                    seed=None)
+        per_shot.append((shot, preds))
+        shots.append({"shot_id": shot.shot_id, "params": shot.params, **res})
+    return per_shot, {"study": study.resolved["study"].get("name", ""), "shots": shots}
+
+
+def flat_rows(document) -> list:
+    """One row per shot, hypothesis and condition (for orientation.csv)."""
+    rows = []
+    for s in document["shots"]:
+        for r in s["rows"]:
+            rows.append({"shot_id": s["shot_id"],
+                         **{f"param_{k}": v for k, v in s["params"].items()}, **r})
+    return rows
+
+
+def csv_bytes(document) -> bytes:
+    import csv
+    import io
+
+    rows = flat_rows(document)
+    cols = []
+    for r in rows:
+        for k in r:
+            if k not in cols:
+                cols.append(k)
+    buf = io.StringIO()
+    w = csv.DictWriter(buf, cols, lineterminator="\n")
+    w.writeheader()
+    for r in rows:
+        w.writerow({k: (f"{v:.10g}" if isinstance(v, float) else v) for k, v in r.items()})
+    return buf.getvalue().encode()
+
+
+def json_bytes(document) -> bytes:
+    """Strict JSON (NaN and infinities written as null)."""
+    return (json.dumps(_finite(document), indent=1, sort_keys=True, default=_jsonable,
+                       allow_nan=False) + "\n").encode()
+
+
+def _finite(x):
+    if isinstance(x, dict):
+        return {k: _finite(v) for k, v in x.items()}
+    if isinstance(x, (list, tuple)):
+        return [_finite(v) for v in x]
+    if isinstance(x, (float, np.floating)):
+        return float(x) if math.isfinite(x) else None
+    return x
+
+
+def _jsonable(x):
+    if isinstance(x, (np.floating, np.integer)):
+        return x.item()
+    if isinstance(x, np.ndarray):
+        return x.tolist()
+    return str(x)
+
+
+def write_outputs(plan_or_study, out_dir):
+    """Write orientation.json and orientation.csv into a study folder (unchanged bytes are
+    not rewritten).  Returns the document."""
+    from . import outputs
+
+    study = getattr(plan_or_study, "study", plan_or_study)
+    _, doc = predict_plan(study)
+    outputs.write_if_changed(os.path.join(out_dir, OUTPUT_JSON), json_bytes(doc))
+    outputs.write_if_changed(os.path.join(out_dir, OUTPUT_CSV), csv_bytes(doc))
+    return doc
+
+
+__all__ = ["ORIENTATION", "check_orientation", "conditions_of", "hypotheses_of",
+           "predict_config", "predict_plan", "power_table", "write_outputs", "csv_bytes",
+           "json_bytes", "flat_rows"]
