@@ -19,6 +19,8 @@ A study file has these tables (each documented in the example written by
     [views.NAME] kind = a key of renderer.views.REGISTRY plus that class's fields
     [scene]      kind = dusk | uniform | file, width, luminance, path, north_col
     [render]     gain, outside
+    [display]    kind = srgb | gamma | table, bits, black_cd_m2, white_cd_m2, gamma,
+                 table (CSV), dither = none | noise | ordered, temporal, pattern_grey
     [sequence]   kind = still | heading-sweep | head-scan | route, and its keys
     [timeline]   steps = [{t_s, action, ...}] (coil manipulations over time)
     [output]     encodings and exports
@@ -97,8 +99,21 @@ RENDER = {
     "gain": Key(float, 1.0, lo=0.0, hi=1e6),
     "outside": Key(float, 0.25, lo=0.0, hi=1.0),
 }
+DISPLAY = {
+    "kind": Key(str, "srgb", choices=("srgb", "gamma", "table")),
+    "bits": Key(int, 8, choices=(8, 10, 16)),
+    "black_cd_m2": Key(float, None, lo=0.0, unit="cd/m² (srgb, gamma; default 0)"),
+    "white_cd_m2": Key(float, None, lo=0.0, lo_open=True, unit="cd/m² (srgb, gamma; default 80)"),
+    "gamma": Key(float, None, lo=0.0, hi=10.0, lo_open=True),
+    "table": Key(str, None),
+    "dither": Key(str, "none", choices=("none", "noise", "ordered")),
+    "temporal": Key(bool, True, doc="new dither noise every frame (false: the same for all)"),
+    "pattern_grey": Key((float, str), 0.5,
+                        doc="background of the pattern metrics: relative 0..1, 'X cd/m2' or "
+                            "'F white'"),
+}
 OUTPUT = {
-    "png8": Key(bool, True, doc="8-bit sRGB PNG frames"),
+    "png8": Key(bool, True, doc="PNG frames in the display's codes (8-bit sRGB by default)"),
     "png16": Key(bool, False, doc="16-bit linear PNG frames"),
     "preview": Key(str, "none", choices=PREVIEWS),
     "preview_width": Key(int, 256, lo=8, hi=4096, unit="pixels"),
@@ -107,11 +122,12 @@ OUTPUT = {
     "crf": Key(int, 18, lo=0, hi=51),
     "fps": Key(float, None, lo=0.0, hi=1000.0, lo_open=True, unit="frames per second"),
     "conditions": Key(bool, True),
+    "timing": Key(bool, True, doc="timing/<shot>_<view>.csv: frame files with onset times"),
     "metrics": Key(bool, True),
     "netcdf": Key(bool, True),
 }
 METRICS = {
-    "providers": Key(list, ["basic"]),
+    "providers": Key(list, ["basic", "display"]),
     "grid_width": Key(int, 90, lo=8, hi=4096, unit="pixels (even)"),
 }
 SWEEP = {
@@ -129,7 +145,8 @@ AXIS = {
 
 #: Top-level tables in the order they are resolved and written to study.json.
 SECTIONS = ("study", "site", "field", "pose", "layout", "response", "responses", "views", "scene",
-            "render", "sequence", "timeline", "output", "metrics", "sweep", "orientation")
+            "render", "display", "sequence", "timeline", "output", "metrics", "sweep",
+            "orientation")
 
 DEFAULT_VIEWS = {"world": {"kind": "world-panorama", "width": 256}}
 
@@ -260,6 +277,8 @@ def validate(raw: dict, base_dir: str, problems: list) -> dict:
     out["scene"] = check_table("scene", g("scene"), SCENE, problems)
     _check_scene(out["scene"], base_dir, problems)
     out["render"] = check_table("render", g("render"), RENDER, problems)
+    out["display"] = check_table("display", g("display"), DISPLAY, problems)
+    _check_display(out["display"], base_dir, problems)
     out["sequence"] = sequences.check_sequence(g("sequence"), base_dir, problems)
     out["timeline"] = sequences.check_timeline(g("timeline"), set(out["responses"]), problems)
     out["output"] = check_table("output", g("output"), OUTPUT, problems)
@@ -447,8 +466,33 @@ def _check_scene(s, base_dir, problems):
         problems.append(f"scene.width = {w}: must be even (the panorama is width x width/2)")
 
 
+def _check_display(d, base_dir, problems):
+    """Build the display model once here so a bad table (its row named) or a missing
+    gamma is reported before anything renders."""
+    from ..display import make_display, parse_target
+
+    if d.get("table") is not None:
+        _file_key("display.table", d["table"], base_dir, problems)
+        if any(p.startswith("display.table") for p in problems):
+            return
+    try:
+        disp = make_display(d.get("kind"), d.get("bits"), d.get("black_cd_m2"),
+                            d.get("white_cd_m2"), d.get("gamma"),
+                            resolve_path(base_dir, d["table"]) if d.get("table") else None,
+                            where="display")
+        parse_target(d.get("pattern_grey"), disp, where="display.pattern_grey")
+    except MagretinaError as exc:
+        problems.append(str(exc))
+
+
 def _check_output(out, problems):
     o = out["output"]
+    bits = out.get("display", {}).get("bits")
+    if bits not in (None, 8):
+        for k in ("video", "preview"):
+            if o.get(k) not in (None, "none"):
+                problems.append(f"output.{k} = {o[k]!r}: needs display.bits = 8 (videos and "
+                                f"previews are 8-bit; the display has {bits})")
     if o.get("video") not in (None, "none") and not o.get("png8"):
         problems.append("output.video needs output.png8 = true (videos are encoded from the "
                         "8-bit sRGB frames)")

@@ -176,21 +176,63 @@ def frame_cells(shot, i) -> dict:
             "coil": fs.coil[i], "response": fs.response[i]}
 
 
+def playback_fps(cfg) -> float:
+    """Frames per second a sequence is shown at: ``output.fps``, else the sequence's own
+    ``fps``, else 10 (the same rule as the videos)."""
+    return float(cfg["output"]["fps"] or cfg["sequence"].get("fps") or 10.0)
+
+
+def onset_s(frame, fps) -> float:
+    """Onset of a frame from the start of its sequence when shown at ``fps``, s."""
+    return frame / float(fps)
+
+
 def conditions_csv(plan, entries) -> bytes:
-    """One row per frame image file: path (relative), shot, view, frame, parameters."""
+    """One row per frame image file: path (relative), shot, view, frame, playback rate and
+    onset, parameters."""
     axes = [a.name for a in plan.axes]
     fcols = list(frame_cells(plan.shots[0], 0))
-    cols = ["file", "encoding", "shot_id", "view", "frame"] + axes + fcols
+    cols = ["file", "encoding", "shot_id", "view", "frame", "fps", "onset_s"] + axes + fcols
     rows = []
     for shot in plan.shots:
         entry = entries[shot.index]
+        fps = playback_fps(shot.config)
         base = {"shot_id": shot.shot_id, **axis_cells(plan, shot)}
         frame_recs = [r for r in entry["files"] if r.get("frame") is not None]
         for rec in sorted(frame_recs, key=lambda r: (r["frame"], r["path"])):
             rows.append({**base, "file": rec["path"], "encoding": rec["encoding"],
-                         "view": rec["view"], "frame": rec["frame"],
+                         "view": rec["view"], "frame": rec["frame"], "fps": fps,
+                         "onset_s": onset_s(rec["frame"], fps),
                          **frame_cells(shot, rec["frame"])})
     return csv_bytes(cols, rows)
+
+
+def timing_name(shot_id, view) -> str:
+    return f"timing/{shot_id}_{view}.csv"
+
+
+def timing_csvs(plan, entries) -> dict:
+    """{relative path: bytes} of one timing table per shot and view.
+
+    Rows: ``frame, file, onset_s, duration_s, t_s`` for the display-coded frames (the
+    16-bit linear files when those are the only ones), ``file`` relative to the timing
+    table, onset and duration at the playback rate, ``t_s`` the frame's model time.  A
+    table of this shape (one row per image, a path and an onset) is what experiment
+    software reads as a conditions file (common practice)."""
+    out = {}
+    for shot in plan.shots:
+        fps = playback_fps(shot.config)
+        recs = [r for r in entries[shot.index]["files"] if r.get("frame") is not None]
+        pick = "png8" if any(r["encoding"] == "png8" for r in recs) else "png16"
+        for view in shot.config["views"]:
+            vrecs = sorted((r for r in recs if r["view"] == view and r["encoding"] == pick),
+                           key=lambda r: r["frame"])
+            rows = [{"frame": r["frame"], "file": "../" + r["path"],
+                     "onset_s": onset_s(r["frame"], fps), "duration_s": 1.0 / fps,
+                     "t_s": float(shot.frames.t_s[r["frame"]])} for r in vrecs]
+            out[timing_name(shot.shot_id, view)] = csv_bytes(
+                ["frame", "file", "onset_s", "duration_s", "t_s"], rows)
+    return out
 
 
 def metric_names(entries) -> list[str]:

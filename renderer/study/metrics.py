@@ -17,7 +17,9 @@ The context gives the presented field (:class:`renderer.field.FieldVector`), the
 pose, layout, response, product, gain, the views, the prepared kernel inputs
 (``ctx.inputs``, from :func:`renderer.pipeline.prepare`), the visual-field mean
 signal, the shot's seed (``ctx.seed``; use ``numpy.random.default_rng(ctx.seed)``
-for anything random so reruns are identical), the swept parameters, and helpers
+for anything random so reruns are identical), the swept parameters, the display
+model and quantiser (``ctx.display``, ``ctx.dither``, ``ctx.dither_seed(view)``,
+``ctx.frame_image(view)``: the continuous frame the files are made from), and helpers
 that compute (and cache) signal maps: ``ctx.signal_map(view_name)`` and
 ``ctx.eye_signal(eye)`` (a head-frame panorama of one eye at ``metrics.grid_width``).
 Metrics are model predictions under the study's assumptions, not measurements.
@@ -54,6 +56,13 @@ class MetricContext:
     mean_signal: float
     metric_views: dict
     options: dict = field(default_factory=dict)
+    display: object = None
+    dither: str = "none"
+    temporal: bool = True
+    pattern_grey: float = 0.5
+    scene: object = None
+    outside: float = 0.25
+    images: dict = field(default_factory=dict, repr=False)
     _cache: dict = field(default_factory=dict, repr=False)
 
     def signal_map(self, view) -> np.ndarray:
@@ -72,6 +81,25 @@ class MetricContext:
                 f = render_pattern(self.field, self.pose, self.layout, self.response, v)
                 self._cache[key] = 1.0 - f if self.product == "triplet" else f
         return self._cache[key]
+
+    def frame_image(self, view) -> np.ndarray:
+        """The frame's continuous linear image over a study view, (H, W, 3) float32 (the
+        one the frame files are quantised from)."""
+        if view not in self.images:
+            from ..pipeline import composite_inputs
+
+            self.images[view] = composite_inputs(self.inputs, self.mean_signal, self.layout,
+                                                 self.views[view], self.scene, self.gain,
+                                                 self.outside)
+        return self.images[view]
+
+    def dither_seed(self, view, pattern=False):
+        """The dither seed of this frame's file of ``view`` (the pattern stimulus of the
+        display metrics gets a seed of its own)."""
+        from ..dither import frame_seed
+
+        vi = list(self.views).index(view) + (1 << 20 if pattern else 0)
+        return frame_seed(self.seed, self.frame, self.temporal, view=vi)
 
     def eye_signal(self, eye) -> np.ndarray:
         """Signal over one eye's field on a head-frame panorama (NaN where unseen)."""
@@ -111,6 +139,34 @@ def basic(ctx: MetricContext) -> dict:
     return out
 
 
+def display(ctx: MetricContext) -> dict:
+    """Intended and displayed luminance statistics of every study view (model predictions
+    put through the study's display model and quantiser; see renderer.display).
+
+    ``<view>_frame_*``: the frame as its file encodes it, every pixel: mean luminance in
+    cd/m², Michelson and RMS contrast.  ``<view>_pattern_*``: the pattern alone on a
+    uniform field of ``display.pattern_grey``, over the pixels an eye sees, quantised the
+    same way (with its own seed): how much of the modulation survives quantisation.
+    """
+    from ..composite import pattern_grey
+    from ..display import SRGB8, displayed_stats
+    from ..dither import quantise
+
+    disp = ctx.display or SRGB8
+    out = {}
+    for i, name in enumerate(ctx.views):
+        tag = _safe(name, i)
+        img = ctx.frame_image(name)
+        codes = quantise(disp, img, ctx.dither, ctx.dither_seed(name))
+        out.update(displayed_stats(disp, img, codes, prefix=f"{tag}_frame_"))
+        sig = ctx.signal_map(name)
+        pat = pattern_grey(sig, ctx.mean_signal, ctx.gain, grey=ctx.pattern_grey)
+        pcodes = quantise(disp, pat, ctx.dither, ctx.dither_seed(name, pattern=True))
+        out.update(displayed_stats(disp, pat, pcodes, mask=np.isfinite(sig),
+                                   prefix=f"{tag}_pattern_"))
+    return out
+
+
 def _safe(name, i):
     s = "".join(c if c.isalnum() else "_" for c in str(name)).strip("_").lower()
     return s if s and s[0].isalpha() else f"eye{i}"
@@ -119,6 +175,7 @@ def _safe(name, i):
 #: name -> provider function, or "module:function" imported on first use.
 PROVIDERS = {
     "basic": basic,
+    "display": display,
     "prediction": "renderer.predict:study_metrics",
 }
 
@@ -135,7 +192,7 @@ def get_provider(name):
 def compute(ctx_kwargs: dict, providers, options) -> dict:
     """Run the named providers for one frame; merge their dicts (names must not clash)."""
     out = {}
-    ctx = MetricContext(**ctx_kwargs)
+    ctx = ctx_kwargs if isinstance(ctx_kwargs, MetricContext) else MetricContext(**ctx_kwargs)
     for name in providers:
         ctx.options = dict(options.get(name, {}))
         vals = get_provider(name)(ctx)

@@ -4,8 +4,9 @@ Layout of a study folder::
 
     study.json                  resolved configuration, hashes, versions, seeds, encodings
     manifest.jsonl              one JSON line per finished shot: files with SHA-256, metrics
-    frames/<shot>/<view>_<frame>.png          8-bit sRGB
-    frames/<shot>/<view>_<frame>_lin16.png    16-bit linear (no gamma)
+    frames/<shot>/<view>_<frame>.png          display codes (8-bit sRGB by default)
+    frames/<shot>/<view>_<frame>_lin16.png    16-bit linear (gAMA 1.0, cICP)
+    timing/<shot>_<view>.csv                  frame files with onset times (s)
     previews/<shot>_<view>.gif|.png           animated previews (APNG uses .png)
     video/<shot>_<view>.mp4|.mkv              videos (lossless: libx264rgb .mp4 or FFV1 .mkv)
     conditions.csv, metrics.csv, metrics.nc   tables for experiment and analysis software
@@ -15,7 +16,8 @@ Every file is written under a hidden temporary name and renamed
 killed run) is ignored.  A folder is claimed by ``study.json``: a different study
 (another resolved configuration) is refused unless forced, the same study resumes
 and skips every file whose size and checksum match the manifest.  No timestamps
-are written, so rerunning a finished study changes no byte.  This module does not
+are written (PNG frames carry no Creation Time for that reason), so rerunning a
+finished study changes no byte.  This module does not
 render.
 """
 
@@ -34,8 +36,9 @@ STUDY_JSON = "study.json"
 MANIFEST = "manifest.jsonl"
 
 ENCODINGS = {
-    "png8": "8-bit sRGB PNG (IEC 61966-2-1 transfer function), no gamma chunk",
-    "png16": "16-bit linear-light PNG (code value / 65535 = linear luminance), no gamma chunk",
+    "png8": "8-bit sRGB PNG (IEC 61966-2-1 transfer function; sRGB, gAMA and cHRM chunks)",
+    "png16": "16-bit linear-light PNG (code value / 65535 = linear luminance; gAMA 1.0 and "
+             "cICP linear)",
     "gif": "animated GIF preview, 8-bit sRGB, palette-quantised (not for measurement)",
     "apng": "animated PNG preview, 8-bit sRGB (downscaled; not for measurement)",
     "mp4": "H.264 yuv420p MP4 (lossy) from the 8-bit sRGB frames, no resizing",
@@ -46,6 +49,17 @@ ENCODINGS = {
 CAUTION = ("Images and numbers are predictions of a model under the stated hypothesis "
            "(receptor response, alignment, gain); they are not measurements of what an animal "
            "perceives.")
+
+
+def display_encoding(d) -> str:
+    """Description of display-coded frames for a non-default ``[display]`` table."""
+    store = {8: "8-bit PNG", 10: "10-bit codes in 16-bit PNG samples (bit replication, sBIT 10)",
+             16: "16-bit PNG"}[d["bits"]]
+    curve = {"srgb": "sRGB transfer (sRGB chunk)",
+             "gamma": f"power law gamma {d.get('gamma')} (gAMA chunk)",
+             "table": f"measured table {d.get('table')} (no colour chunk: codes for that display)"}
+    return (f"{store}, display codes: {curve[d['kind']]}, dither {d['dither']}"
+            f"{' (per frame)' if d['temporal'] and d['dither'] != 'none' else ''}")
 
 
 def sha256_bytes(data: bytes) -> str:
@@ -250,6 +264,8 @@ def input_files(study) -> dict:
         paths.append(r["scene"]["path"])
     if r["sequence"].get("csv"):
         paths.append(r["sequence"]["csv"])
+    if r.get("display", {}).get("table"):
+        paths.append(r["display"]["table"])
     return {p: sha256_file(resolve_path(study.base_dir, p)) for p in paths}
 
 

@@ -33,7 +33,9 @@ def encodings_of(cfg) -> dict:
     o = cfg["output"]
     enc = {}
     if o["png8"]:
-        enc["frames/*/*.png"] = outputs.ENCODINGS["png8"]
+        d = cfg["display"]
+        enc["frames/*/*.png"] = outputs.ENCODINGS["png8"] if (d["kind"], d["bits"]) == (
+            "srgb", 8) else outputs.display_encoding(d)
     if o["png16"]:
         enc["frames/*/*_lin16.png"] = outputs.ENCODINGS["png16"]
     if o["preview"] != "none":
@@ -61,7 +63,7 @@ def expected_files(plan, shot):
     encs = [e for e in ("png8", "png16") if o[e]]
     per_frame = {i: {v: {e: outputs.frame_name(shot.shot_id, v, i, digits, e) for e in encs}
                      for v in cfg["views"]} for i in range(len(shot.frames))}
-    fps = o["fps"] or cfg["sequence"].get("fps") or 10.0
+    fps = exports.playback_fps(cfg)
     items = []
     for v in cfg["views"]:
         frames8 = [per_frame[i][v]["png8"] for i in range(len(shot.frames))] if o["png8"] else []
@@ -295,9 +297,21 @@ def _frame_task(shot, i, write, metrics):
             "response": fs.response[i], "files": write, "metrics": metrics}
 
 
+def _display_task(cfg, base_dir):
+    from .config import resolve_path
+
+    d = dict(cfg["display"])
+    if d.get("table"):
+        d["table"] = resolve_path(base_dir, d["table"])
+    return d
+
+
 def _chunk_task(plan, shot, frames, out_dir):
     cfg = shot.config
     return {"shot": shot.index, "shot_id": shot.shot_id, "seed": shot.seed,
+            "display": _display_task(cfg, plan.study.base_dir),
+            "config_sha256": plan.study.config_sha256,
+            "study_name": plan.study.resolved["study"]["name"],
             "params": shot.params, "res_key": shot.res_key, "out_dir": out_dir,
             "field_model": cfg["field"]["model"], "gain": cfg["render"]["gain"],
             "outside": cfg["render"]["outside"], "frames": frames,
@@ -344,6 +358,9 @@ def _write_tables(plan, entries, out_dir):
     if o["conditions"]:
         outputs.write_if_changed(os.path.join(out_dir, "conditions.csv"),
                                  exports.conditions_csv(plan, entries))
+    if o["timing"]:
+        for rel, data in exports.timing_csvs(plan, entries).items():
+            outputs.write_if_changed(os.path.join(out_dir, rel), data)
     if o["metrics"]:
         outputs.write_if_changed(os.path.join(out_dir, "metrics.csv"),
                                  exports.metrics_csv(plan, entries))

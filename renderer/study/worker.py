@@ -56,14 +56,61 @@ def _set_threads(n):
         numba.set_num_threads(max(1, min(int(n), numba.config.NUMBA_NUM_THREADS)))
 
 
+def build_display(cfg):
+    """The display model of a task's resolved ``[display]`` table (table path absolute)."""
+    from ..display import SRGB8, make_display, parse_target
+
+    if not cfg:
+        return SRGB8, 0.5
+    d = make_display(cfg["kind"], cfg["bits"], cfg.get("black_cd_m2"), cfg.get("white_cd_m2"),
+                     cfg.get("gamma"), cfg.get("table"), where="display")
+    return d, parse_target(cfg.get("pattern_grey", 0.5), d, where="display.pattern_grey")
+
+
+_DISPLAYS: dict = {}
+
+
+def _display(cfg):
+    import json
+
+    key = json.dumps(cfg, sort_keys=True, default=str)
+    if key not in _DISPLAYS:
+        _DISPLAYS[key] = build_display(cfg)
+    return _DISPLAYS[key]
+
+
+def frame_labels(task, fr, vname, view, enc, field, pose, layout, response, product, display):
+    """Text chunks of one study frame file (no Creation Time: reruns give the same bytes)."""
+    from ..pngmeta import label_chunks
+    from ..provenance import CAUTION, frame_params
+
+    dcfg = task.get("display") or {}
+    method = dcfg.get("dither", "none")
+    params = frame_params(field, pose, layout, response, view, task["gain"], product, display,
+                          method, task["seed"] if method != "none" else None,
+                          dcfg.get("temporal") if method != "none" else None,
+                          config_sha256=task.get("config_sha256"), study=task.get("study_name"),
+                          shot_id=task["shot_id"], frame=fr["index"], t_s=fr["t_s"],
+                          view_name=vname, outside=task["outside"])
+    if enc == "png16":
+        what = "16-bit linear light (code/65535)"
+    else:
+        what = f"codes for display {display.kind} {display.bits}-bit"
+    desc = (f"study {task.get('study_name')!s} shot {task['shot_id']} frame {fr['index']} "
+            f"(t = {fr['t_s']:g} s), view {vname}: frame composited onto the scene; {what}")
+    warn = ("code values for the measured display in the parameters, not sRGB"
+            if enc != "png16" and display.kind == "table" else None)
+    return label_chunks(desc, CAUTION, params, warning=warn, created=False)
+
+
 def render_chunk(task: dict, resources=None) -> dict:
     """Render frames ``task["frames"]`` of one shot; see the module docstring.
 
     Returns ``{"shot", "records": [...], "metrics": {frame: {...}}, "frames": n}``.
     """
-    from ..composite import to_uint8_srgb, to_uint16_linear
+    from ..dither import frame_seed, quantise
     from ..field import FieldVector
-    from ..io import atomic_write_bytes, png_bytes
+    from ..io import atomic_write_bytes, display_png_bytes, linear16_png_bytes
     from ..pipeline import composite_inputs, prepare, visual_field_mean
     from ..pose import Pose
     from . import metrics as metrics_mod
@@ -72,6 +119,10 @@ def render_chunk(task: dict, resources=None) -> dict:
     res = _resources(task, resources)
     _set_threads(task.get("numba_threads"))
     out_dir = task["out_dir"]
+    dcfg = task.get("display") or {}
+    display, grey = _display(dcfg)
+    method = dcfg.get("dither", "none")
+    temporal = dcfg.get("temporal", True)
     records, metrics = [], {}
     for fr in task["frames"]:
         i = fr["index"]
@@ -84,25 +135,36 @@ def render_chunk(task: dict, resources=None) -> dict:
         if mean == 0.0:
             raise ValueError(f"{task['shot_id']} frame {i}: the mean signal over the visual "
                              f"field is 0; modulation undefined")
-        for vname, view in res.views.items():
+        images = {}
+        for vi, (vname, view) in enumerate(res.views.items()):
             targets = fr["files"][vname]  # encoding -> relative path to write (only those)
             if not targets:
                 continue
             img = composite_inputs(inputs, mean, res.layout, view, res.scene, task["gain"],
                                    task["outside"])
+            images[vname] = img
             for enc, rel in targets.items():
-                arr = to_uint8_srgb(img) if enc == "png8" else to_uint16_linear(img)
-                data = png_bytes(arr)
+                labels = frame_labels(task, fr, vname, view, enc, field, pose, res.layout,
+                                      response, product, display)
+                if enc == "png8":
+                    codes = quantise(display, img, method, frame_seed(task["seed"], i, temporal,
+                                                                      view=vi))
+                    data = display_png_bytes(codes, display, labels)
+                else:
+                    data = linear16_png_bytes(img, labels)
                 atomic_write_bytes(os.path.join(out_dir, rel), data)
                 records.append({"path": rel, "sha256": sha256_bytes(data), "bytes": len(data),
                                 "frame": i, "view": vname, "encoding": enc})
         if fr["metrics"]:
-            ctx = dict(shot=task["shot"], shot_id=task["shot_id"], frame=i, t_s=fr["t_s"],
-                       seed=task["seed"], params=task["params"], field=field,
-                       ambient_ned_T=np.asarray(fr["ambient_ned_T"]), pose=pose,
-                       layout=res.layout, response=response, product=product,
-                       gain=task["gain"], views=res.views, inputs=inputs, mean_signal=mean,
-                       metric_views=res.metric_views)
+            ctx = metrics_mod.MetricContext(
+                shot=task["shot"], shot_id=task["shot_id"], frame=i, t_s=fr["t_s"],
+                seed=task["seed"], params=task["params"], field=field,
+                ambient_ned_T=np.asarray(fr["ambient_ned_T"]), pose=pose,
+                layout=res.layout, response=response, product=product,
+                gain=task["gain"], views=res.views, inputs=inputs, mean_signal=mean,
+                metric_views=res.metric_views, display=display, dither=method,
+                temporal=temporal, pattern_grey=grey, scene=res.scene,
+                outside=task["outside"], images=images)
             metrics[i] = metrics_mod.compute(ctx, task["providers"], task["provider_options"])
     return {"shot": task["shot"], "records": records, "metrics": metrics,
             "frames": len(task["frames"])}

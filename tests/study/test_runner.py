@@ -38,7 +38,9 @@ def test_grid_study_files_manifest_conditions_resume(tmp_path, grid_study):
               if f.endswith(".png")}
     assert frames == expected
     assert set(os.listdir(out)) == {"frames", "study.json", "manifest.jsonl", "conditions.csv",
-                                    "metrics.csv", "metrics.nc"}
+                                    "metrics.csv", "metrics.nc", "timing"}
+    assert sorted(os.listdir(os.path.join(out, "timing"))) == [f"shot{i:03d}_world.csv"
+                                                                 for i in range(6)]
     lines = open(os.path.join(out, "manifest.jsonl")).read().splitlines()
     assert len(lines) == 6
     for i, line in enumerate(lines):

@@ -1,0 +1,167 @@
+"""The display model, dithering, labels and timing in a study folder.
+
+References: W3C PNG specification 3rd edition (sBIT, gAMA, text keywords); Allard &
+Faubert 2008 (noisy-bit dithering: independent noise per frame when it is temporal);
+conditions files for experiment software: one row per image with a relative path and
+an onset (common practice).  Lossless video: FFV1 and libx264rgb at crf 0 must return
+every pixel of a dithered (high-entropy) frame (checked by decoding with imageio's
+ffmpeg, a different code path from the encoder settings).
+"""
+
+import csv
+import json
+import os
+import textwrap
+
+import numpy as np
+import pytest
+
+from renderer.errors import ConfigError
+from renderer.study.runner import run_study
+
+from test_files import raw_chunks, texts
+
+STUDY = """
+[study]
+name = "display-test"
+seed = 9
+
+[site]
+name = "Test Shoal (invented)"
+lat_deg = 40.0
+lon_deg = 5.0
+
+[field]
+model = "igrf"
+date = "2026-05-20"
+
+[views.world]
+kind = "world-panorama"
+width = 64
+
+[render]
+gain = 2.0
+
+[sequence]
+kind = "still"
+frames = 3
+fps = 4.0
+
+[display]
+{display}
+
+[output]
+png8 = true
+png16 = true
+"""
+
+
+def _study(tmp_path, display, name="s.toml"):
+    p = tmp_path / name
+    p.write_text(textwrap.dedent(STUDY).replace("{display}", textwrap.dedent(display)))
+    return str(p)
+
+
+def _read16(path):
+    import png
+
+    w, h, rows, info = png.Reader(filename=str(path)).read()
+    return np.vstack([np.asarray(r, np.uint16) for r in rows])
+
+
+def test_study_dithered_gamma_10bit(tmp_path):
+    """10-bit gamma display with temporal noise: frames of a still sequence (same
+    continuous image) differ; sBIT 10 and gAMA declared; every frame labelled with the
+    study's configuration hash and no Creation Time (reruns give the same bytes);
+    conditions and timing tables give onsets frame/fps."""
+    out = tmp_path / "out"
+    run_study(_study(tmp_path, 'kind = "gamma"\ngamma = 2.2\nbits = 10\ndither = "noise"\n'),
+              str(out), progress=False)
+    f = [out / f"frames/shot000/world_{k:04d}.png" for k in range(3)]
+    a = [_read16(p) for p in f]
+    assert not np.array_equal(a[0], a[1]) and not np.array_equal(a[1], a[2])
+    side = json.loads((out / "study.json").read_text())
+    for p in f:
+        ch = raw_chunks(p)
+        t = texts(ch)
+        assert dict(ch)["sBIT"] == bytes([10, 10, 10])
+        assert "Creation Time" not in t
+        params = json.loads(t["magretina parameters"])
+        assert params["config_sha256"] == side["config_sha256"]
+        assert params["dither"]["method"] == "noise" and params["display"]["bits"] == 10
+    lin = dict(raw_chunks(out / "frames/shot000/world_0000_lin16.png"))
+    assert lin["cICP"] == bytes([1, 8, 0, 1])
+    with open(out / "conditions.csv", newline="") as fh:
+        rows = list(csv.DictReader(fh))
+    for r in rows:
+        assert float(r["fps"]) == 4.0 and float(r["onset_s"]) == int(r["frame"]) / 4.0
+    with open(out / "timing/shot000_world.csv", newline="") as fh:
+        trows = list(csv.DictReader(fh))
+    assert [int(r["frame"]) for r in trows] == [0, 1, 2]
+    assert [float(r["onset_s"]) for r in trows] == [0.0, 0.25, 0.5]
+    assert all(float(r["duration_s"]) == 0.25 for r in trows)
+    for r in trows:
+        assert os.path.isfile(os.path.join(out / "timing", r["file"]))
+    # Metrics: displayed beside intended, per view, for the frame and the pattern.
+    with open(out / "metrics.csv", newline="") as fh:
+        m = list(csv.DictReader(fh))
+    for key in ("world_frame_mean_cd_m2_intended", "world_frame_mean_cd_m2_displayed",
+                "world_pattern_michelson_intended", "world_pattern_michelson_displayed",
+                "world_pattern_rms_contrast_displayed"):
+        assert key in m[0], key
+    # A rerun writes nothing new: same bytes.
+    before = {p: p.read_bytes() for p in f}
+    run_study(_study(tmp_path, 'kind = "gamma"\ngamma = 2.2\nbits = 10\ndither = "noise"\n'),
+              str(out), progress=False)
+    assert all(p.read_bytes() == b for p, b in before.items())
+
+
+def test_fixed_noise_repeats_across_frames(tmp_path):
+    out = tmp_path / "out"
+    run_study(_study(tmp_path, 'dither = "ordered"\ntemporal = false\n'), str(out),
+              progress=False)
+    import imageio.v3 as iio
+
+    a = [iio.imread(out / f"frames/shot000/world_{k:04d}.png") for k in range(3)]
+    assert np.array_equal(a[0], a[1]) and np.array_equal(a[1], a[2])
+    assert dict(raw_chunks(out / "frames/shot000/world_0000.png"))["sRGB"] == b"\0"
+
+
+@pytest.mark.parametrize("display, needle", [
+    ("bits = 12\n", "display.bits"),
+    ('kind = "gamma"\n', "display.gamma: missing"),
+    ('dither = "blue"\n', "display.dither"),
+    ('pattern_grey = "500 cd/m2"\n', "display.pattern_grey"),
+    ('kind = "table"\ntable = "lab.csv"\n', "line 4"),
+    ('kind = "table"\ntable = "nope.csv"\n', "display.table = 'nope.csv': no such file"),
+])
+def test_bad_display_tables_reported_with_key(tmp_path, display, needle):
+    (tmp_path / "lab.csv").write_text("code,cd_m2\n0,0.5\n100,20\n90,25\n255,80\n")
+    with pytest.raises(ConfigError) as exc:
+        run_study(_study(tmp_path, display), str(tmp_path / "out"), progress=False)
+    assert needle in str(exc.value)
+
+
+def test_video_needs_8bit_display(tmp_path):
+    text = _study(tmp_path, "bits = 16\n")
+    with open(text, "a") as fh:
+        fh.write('video = "lossless"\n')
+    with pytest.raises(ConfigError, match="output.video = 'lossless': needs display.bits = 8"):
+        run_study(text, str(tmp_path / "out"), progress=False)
+
+
+@pytest.mark.parametrize("codec", ["ffv1", "libx264rgb"])
+def test_lossless_video_keeps_dithered_pixels(tmp_path, codec):
+    from renderer.display import make_display
+    from renderer.dither import frame_seed, quantise
+    from renderer.study.exports import read_video, write_video
+
+    d = make_display()
+    rng = np.random.default_rng(2)
+    base = 0.2 + 0.002 * rng.standard_normal((48, 64, 3))
+    frames = [quantise(d, base, "noise", frame_seed(1, k)) for k in range(3)]
+    path = str(tmp_path / ("v.mkv" if codec == "ffv1" else "v.mp4"))
+    write_video(path, frames, 10.0, "lossless", codec)
+    back = read_video(path)
+    assert back.shape == (3, 48, 64, 3)
+    np.testing.assert_array_equal(back, np.stack(frames))
