@@ -346,6 +346,9 @@ def build_report(study_dir, out=None, thumb_px=192, max_frames=400, max_rows=200
         parts.append(f"<figure><img src='{_data_uri_png(data)}' alt='{esc(cap)}'>"
                      f"<figcaption>{esc(cap)}</figcaption></figure>")
     parts.append("</div>")
+    from .orientation.report import html_section  # orientation predictions and analysis, if any
+
+    parts.append(html_section(d))
     # metrics table
     header, rows = study["metrics_header"], study["metrics_rows"]
     parts.append("<h2>Metrics</h2>")

@@ -102,21 +102,9 @@ def run_predict(args) -> int:
 
 
 def _write_predict(out, per, doc):
-    from ..orientation.plots import plot_conditions, plot_power
-    from ..study.orientation import OUTPUT_CSV, OUTPUT_JSON, csv_bytes, json_bytes
-    from ..study.outputs import write_if_changed
+    from ..study.orientation import write_outputs
 
-    os.makedirs(out, exist_ok=True)
-    write_if_changed(os.path.join(out, OUTPUT_JSON), json_bytes(doc))
-    write_if_changed(os.path.join(out, OUTPUT_CSV), csv_bytes(doc))
-    for (shot, preds), s in zip(per, doc["shots"]):
-        conds = [c["name"] for c in s["conditions"]]
-        plot_conditions(os.path.join(out, f"orientation-{shot.shot_id}.png"), conds, preds)
-        curves = {f"{p['hypothesis']}: {p['condition']}": p["curve"]
-                  for p in s.get("power", []) if p.get("curve")}
-        if curves:
-            plot_power(os.path.join(out, f"orientation-power-{shot.shot_id}.png"), curves,
-                       target=s["power"][0].get("target"))
+    write_outputs(out, per, doc)
 
 
 def run_analyse(args) -> int:

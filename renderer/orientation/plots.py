@@ -91,10 +91,11 @@ def plot_conditions(path, conditions, predictions=None, observed=None, axial=Non
                 # stacked dots at the rim, 5° bins
                 b = np.round(a / 5.0).astype(int) % 72
                 level = {}
-                for ang, bi in zip(a, b):
-                    lv = level.get(bi, 0)
-                    level[bi] = lv + 1
-                    ax.plot(math.radians(bi * 5.0), 1.05 + 0.06 * lv, "o", ms=3, color="k")
+                lv = np.empty(b.size)
+                for j, bi in enumerate(b):
+                    lv[j] = level.get(bi, 0)
+                    level[bi] = lv[j] + 1
+                ax.scatter(np.radians(b * 5.0), 1.05 + 0.06 * lv, s=6, color="k", zorder=3)
             d = st.describe(a, ax_c)
             if a.size >= 2:
                 rc = st.rayleigh_critical_r(a.size, alpha)

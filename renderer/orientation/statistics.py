@@ -197,11 +197,12 @@ def v_test_p(u, n):
     """One-sided p of the V test: normal tail with the small-sample terms of
     Durand & Greenwood (1958), as in astropy.stats.vtest; clipped to [0, 1]
     (floored at half the normal tail where the expansion breaks down)."""
-    from scipy.stats import norm
+    from scipy.special import ndtr
 
     z = float(u)
-    tail = norm.sf(z)
-    p = (tail + norm.pdf(z) * ((3 * z - z ** 3) / (16.0 * n)
+    tail = float(ndtr(-z))
+    pdf = math.exp(-0.5 * z * z) / math.sqrt(2.0 * math.pi)
+    p = (tail + pdf * ((3 * z - z ** 3) / (16.0 * n)
                                + (15 * z + 305 * z ** 3 - 125 * z ** 5 + 9 * z ** 7)
                                / (4608.0 * n * n)))
     # The expansion is asymptotic: far in the upper tail of small samples it can

@@ -272,8 +272,11 @@ def power_table(preds, pcfg, seed=0) -> list:
     return out
 
 
-def predict_plan(study, monte_carlo=None, power=True):
+def predict_plan(study, monte_carlo=None, power=True, plan_=None):
     """Predictions for every shot of a study (sweeps included).
+
+    ``plan_`` reuses an expanded :class:`renderer.study.expand.Plan` (else the study is
+    expanded here).
 
     Returns
     -------
@@ -285,7 +288,7 @@ def predict_plan(study, monte_carlo=None, power=True):
     if not study.resolved.get("orientation"):
         raise MagretinaError(f"{study.path}: no [orientation] table (conditions, hypotheses, "
                              f"preferred heading); see the example study")
-    p = plan(study)
+    p = plan_ if plan_ is not None else plan(study)
     per_shot, shots = [], []
     for shot in p.shots:
         amb = np.asarray(shot.frames.ambient_ned_T, float)[0]
@@ -348,18 +351,84 @@ def _jsonable(x):
     return str(x)
 
 
-def write_outputs(plan_or_study, out_dir):
-    """Write orientation.json and orientation.csv into a study folder (unchanged bytes are
-    not rewritten).  Returns the document."""
+def write_outputs(out_dir, per_shot, document) -> list:
+    """Write orientation.json, orientation.csv and the plots (one compass figure and one
+    power figure per shot) into ``out_dir``; unchanged bytes are not rewritten.
+    Returns the paths."""
+    from ..orientation.plots import plot_conditions, plot_power
     from . import outputs
 
-    study = getattr(plan_or_study, "study", plan_or_study)
-    _, doc = predict_plan(study)
-    outputs.write_if_changed(os.path.join(out_dir, OUTPUT_JSON), json_bytes(doc))
-    outputs.write_if_changed(os.path.join(out_dir, OUTPUT_CSV), csv_bytes(doc))
-    return doc
+    os.makedirs(out_dir, exist_ok=True)
+    paths = [os.path.join(out_dir, OUTPUT_JSON), os.path.join(out_dir, OUTPUT_CSV)]
+    outputs.write_if_changed(paths[0], json_bytes(document))
+    outputs.write_if_changed(paths[1], csv_bytes(document))
+    for (shot, preds), s in zip(per_shot, document["shots"]):
+        conds = [c["name"] for c in s["conditions"]]
+        paths.append(_plot_if_changed(out_dir, f"orientation-{shot.shot_id}.png",
+                                      lambda q: plot_conditions(q, conds, preds)))
+        curves = _power_curves(s)
+        if curves:
+            paths.append(_plot_if_changed(
+                out_dir, f"orientation-power-{shot.shot_id}.png",
+                lambda q: plot_power(q, curves, target=s["power"][0].get("target"))))
+    return paths
+
+
+def _power_curves(shot_doc) -> dict:
+    """Curves worth drawing: telling the hypotheses apart, plus each hypothesis' test
+    in the first condition (all 3 × 6 curves would be unreadable)."""
+    rows = [p for p in shot_doc.get("power", []) if p.get("curve")]
+    first = shot_doc["conditions"][0]["name"] if shot_doc.get("conditions") else None
+    keep = [p for p in rows if p["test"] == "model comparison" or p["condition"] == first]
+    return {f"{p['hypothesis']}: {p['test']}" + ("" if p["condition"] == "all"
+                                                 else f" ({p['condition']})"): p["curve"]
+            for p in keep}
+
+
+def _plot_if_changed(out_dir, name, draw):
+    """Draw into a temporary file, then keep the old file if the bytes are the same."""
+    import tempfile
+
+    from . import outputs
+
+    with tempfile.TemporaryDirectory(prefix="magretina-orient-") as tmp:
+        q = os.path.join(tmp, name)
+        draw(q)
+        with open(q, "rb") as fh:
+            data = fh.read()
+    path = os.path.join(out_dir, name)
+    outputs.write_if_changed(path, data)
+    return path
+
+
+def study_outputs(plan, out_dir):
+    """Runner hook: predictions of a study with ``[orientation]`` into its folder.
+
+    The document records the study's configuration digest; a rerun of an unchanged
+    study whose orientation files are all present leaves them as they are (the
+    predictions are deterministic, so recomputing would give the same bytes).
+    """
+    digest = plan.study.config_sha256
+    path = os.path.join(out_dir, OUTPUT_JSON)
+    try:
+        with open(path, encoding="utf-8") as fh:
+            old = json.load(fh)
+        if old.get("config_sha256") == digest and all(
+                os.path.isfile(os.path.join(out_dir, f)) for f in old.get("files", [])):
+            return [os.path.join(out_dir, f) for f in old["files"]]
+    except (OSError, ValueError, AttributeError):
+        pass
+    per, doc = predict_plan(plan.study, plan_=plan)
+    doc["config_sha256"] = digest
+    names = [OUTPUT_JSON, OUTPUT_CSV]
+    for (shot, _), s in zip(per, doc["shots"]):
+        names.append(f"orientation-{shot.shot_id}.png")
+        if _power_curves(s):
+            names.append(f"orientation-power-{shot.shot_id}.png")
+    doc["files"] = names
+    return write_outputs(out_dir, per, doc)
 
 
 __all__ = ["ORIENTATION", "check_orientation", "conditions_of", "hypotheses_of",
-           "predict_config", "predict_plan", "power_table", "write_outputs", "csv_bytes",
-           "json_bytes", "flat_rows"]
+           "predict_config", "predict_plan", "power_table", "write_outputs", "study_outputs",
+           "csv_bytes", "json_bytes", "flat_rows"]

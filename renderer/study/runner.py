@@ -367,3 +367,7 @@ def _write_tables(plan, entries, out_dir):
     if o["netcdf"]:
         outputs.write_if_changed(os.path.join(out_dir, "metrics.nc"),
                                  exports.netcdf_bytes(exports.metrics_dataset(plan, entries)))
+    if plan.study.resolved.get("orientation"):
+        from .orientation import study_outputs
+
+        study_outputs(plan, out_dir)
