@@ -47,6 +47,23 @@ def vec_to_azel(v):
     return az, el
 
 
+def unit_vec_to_azel_rad(v):
+    """Azimuth and elevation in radians of unit vectors of shape (..., 3).
+
+    Elevation is arcsin(−z) (z clipped to [−1, 1]): for unit vectors this is the elevation
+    of :func:`vec_to_azel`; it is what equirectangular lookups (whose rows are uniform in
+    elevation) use.  Vectors that are not unit give wrong elevations: use
+    :func:`vec_to_azel` for those.
+
+    Returns
+    -------
+    az_rad : ndarray, in [-π, π]
+    el_rad : ndarray, in [-π/2, π/2]
+    """
+    d = np.asarray(v, dtype=np.float64)
+    return np.arctan2(d[..., 1], d[..., 0]), np.arcsin(np.clip(-d[..., 2], -1.0, 1.0))
+
+
 def angle_between_deg(u, v) -> np.ndarray:
     """Angle in degrees between vectors (last axis 3), robust near 0 and 180 degrees."""
     u = np.asarray(u, dtype=np.float64)

@@ -20,6 +20,14 @@ of ``renderer``; it knows nothing of poses, fields, eyes as objects, views or fi
 
 from __future__ import annotations
 
+import os
+
+from . import _cache
+
+# before any kernel module is imported (and so before numba loads a cached kernel): drop
+# cache entries compiled from other versions of this package's files
+_cache.invalidate_stale(os.path.dirname(os.path.abspath(__file__)))
+
 from .layout import (MODE_AXIAL, MODE_FULL_FIXED, MODE_FULL_MERIDIAN, MODE_RATIO, P_COS_IN,
                      P_COS_OUT, P_COS_PSI, P_CUBE, P_DORSAL, P_E2, P_FULL, P_LUT, P_MODE,
                      P_NASAL, P_Q, P_RB0, P_RB1, P_RB2, P_SIGN, P_SIN_PSI, P_TEMPORAL,
@@ -29,19 +37,19 @@ from .pixels import composite_dirs, pattern_dirs
 from .rows import COS_MARGIN, COS_SQRT_COEFFS, composite_world_aligned, pattern_equirect
 from .sampling import ATAN2_COEFFS, composite_resampled
 from .tables import cube_nodes, cube_table, equirect_dirs, equirect_tables
-from .twins import (cube_lookup_numpy, lut_lookup_numpy, modulate_numpy, normal_coefficients,
-                    pattern_numpy, ray_parameter, receptor_frames_numpy, sample_equirect_numpy,
-                    signal_numpy, visible_numpy)
+from .twins import (cube_lookup_numpy, lut_lookup_numpy, mode_axes_numpy, modulate_numpy,
+                    normal_coefficients, pattern_numpy, ray_parameter, receptor_frames_numpy,
+                    sample_equirect_numpy, signal_numpy, visible_numpy)
 
 __all__ = [
     "ATAN2_COEFFS", "ATAN_COEFFS", "ATAN_MARGIN", "COS_MARGIN", "COS_SQRT_COEFFS", "FASTMATH",
-    "MODE_AXIAL", "MODE_FULL_FIXED", "MODE_FULL_MERIDIAN", "MODE_RATIO", "PARAMS",
-    "P_COS_IN", "P_COS_OUT", "P_COS_PSI", "P_CUBE", "P_DORSAL", "P_E2", "P_FULL", "P_LUT",
-    "P_MODE", "P_NASAL", "P_Q", "P_RB0", "P_RB1", "P_RB2", "P_SIGN", "P_SIN_PSI",
-    "P_TEMPORAL", "P_VENTRAL",
+    "MODE_AXIAL", "MODE_FULL_FIXED", "MODE_FULL_MERIDIAN", "MODE_RATIO", "PARAMS", "P_COS_IN",
+    "P_COS_OUT", "P_COS_PSI", "P_CUBE", "P_DORSAL", "P_E2", "P_FULL", "P_LUT", "P_MODE",
+    "P_NASAL", "P_Q", "P_RB0", "P_RB1", "P_RB2", "P_SIGN", "P_SIN_PSI", "P_TEMPORAL",
+    "P_VENTRAL",
     "composite_dirs", "composite_resampled", "composite_world_aligned", "cube_lookup_numpy",
     "cube_nodes", "cube_table", "equirect_dirs", "equirect_tables", "fast_angle",
-    "lut_lookup_numpy", "modulate_numpy", "normal_coefficients", "pack_eyes", "pattern_dirs",
-    "pattern_equirect", "pattern_numpy", "ray_parameter", "receptor_frames_numpy",
-    "sample_equirect_numpy", "signal_numpy", "visible_numpy",
+    "lut_lookup_numpy", "mode_axes_numpy", "modulate_numpy", "normal_coefficients",
+    "pack_eyes", "pattern_dirs", "pattern_equirect", "pattern_numpy", "ray_parameter",
+    "receptor_frames_numpy", "sample_equirect_numpy", "signal_numpy", "visible_numpy",
 ]

@@ -141,3 +141,53 @@ def _visible(ux, uy, uz, p):
         return False
     alpha = math.atan2(r, ux)
     return k * alpha * alpha <= s2
+
+
+# ---------------------------------------------------------------------------
+# the per-mode receptor signal: the field in the frame a mode reads
+# ---------------------------------------------------------------------------
+# Written once for both families: the per-pixel kernels call these per pixel, the row
+# passes inside their tile loops (inlined, so each caller's error model and fast-math
+# flags apply, and the loops still vectorise: the branches are selects).  The NumPy
+# version is renderer.kernels.twins.mode_axes_numpy.
+
+@njit(cache=True, inline="always", fastmath=FASTMATH)
+def _inplane_field(fixed, A, B, uy, uz, bx, by, bz, c):
+    """The unit field's components (b·e1, b·e2) on the receptor's in-plane frame.
+
+    Receptor axis a = A·x̂ + B·u⊥ (eye frame, u = (u_x, uy, uz) the view direction),
+    c = b·a.  ``fixed`` False: e1 on the meridian, away from the posterior pole, e2 = x̂ × m̂
+    along the parallel (sin β = B·s, cos β = A, m̂ = u⊥/s); True: e1 the eye's dorsal
+    direction (0, 0, −1) projected on the membrane, r = (a_z a − ẑ)/√(1 − a_z²), and
+    e2 = a × r, so b·r = (a_z c − b_z)/n and b·(a × r) = (b_y a_x − b_x a_y)/n.  Where the
+    frame is undefined (on the optic axis, or a along ẑ) a fixed fallback is used.
+    """
+    if fixed:
+        a2 = B * uz
+        n2 = 1.0 - a2 * a2
+        ok = n2 > 1e-24
+        inv = 1.0 / math.sqrt(n2 if ok else 1.0)
+        be1 = (a2 * c - bz) * inv if ok else bx
+        be2 = (by * A - bx * B * uy) * inv if ok else by * a2
+    else:
+        s2 = uy * uy + uz * uz
+        ok = s2 > 0.0
+        inv = 1.0 / math.sqrt(s2 if ok else 1.0)
+        bu = by * uy + bz * uz
+        be1 = A * bu * inv - B * bx * s2 * inv if ok else A * by
+        be2 = (bz * uy - by * uz) * inv if ok else bz
+    return be1, be2
+
+
+@njit(cache=True, inline="always", fastmath=FASTMATH)
+def _ratio_cos(r0, r1, r2, c, be1, be2):
+    """Ratio mode: cos θ of population B, whose axis is r0·a + r1·e1 + r2·e2
+    (slots P_RB0..P_RB2), from the field's components on a, e1, e2."""
+    return r0 * c + r1 * be1 + r2 * be2
+
+
+@njit(cache=True, inline="always", fastmath=FASTMATH)
+def _molecular_xy(cp, sp, be1, be2):
+    """Full-frame modes: the field's molecular x and y components, molecular x =
+    cos ψ·e1 + sin ψ·e2 and y = z × x (slots P_COS_PSI, P_SIN_PSI); its z component is c."""
+    return cp * be1 + sp * be2, cp * be2 - sp * be1

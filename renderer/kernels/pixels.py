@@ -18,44 +18,20 @@ from numba import njit, prange
 from .layout import (MODE_AXIAL, MODE_FULL_FIXED, MODE_RATIO, P_COS_IN, P_COS_OUT, P_COS_PSI,
                      P_CUBE, P_E2, P_FULL, P_LUT, P_MODE, P_Q, P_RB0, P_RB1, P_RB2, P_SIN_PSI,
                      _fold, _tables)
-from .leaf import FASTMATH, _cube_lookup, _lut_lookup, _lut_row_lookup, _visible
+from .leaf import (FASTMATH, _cube_lookup, _inplane_field, _lut_lookup, _lut_row_lookup,
+                   _molecular_xy, _ratio_cos, _visible)
 
 
 @njit(cache=True, inline="always", fastmath=FASTMATH)
 def _frame_signal(ux, uy, uz, A, B, bx, by, bz, c, p, lut, cube):
     """Signal of the modes that need the receptor's in-plane frame (ratio, full)."""
     mode = p[P_MODE]
-    if mode == MODE_FULL_FIXED:
-        # reference: the eye's dorsal direction (0, 0, -1) projected on the membrane,
-        # r = (a_z a − ẑ)/√(1 − a_z²); e2 = a × r.  With b·a = c:
-        # b·r = (a_z c − b_z)/n,  b·(a × r) = (a × r)·b = (b_y a_x − b_x a_y)/n
-        a2 = B * uz
-        n2 = 1.0 - a2 * a2
-        if n2 > 1e-24:
-            inv = 1.0 / math.sqrt(n2)
-            be1 = (a2 * c - bz) * inv
-            be2 = (by * A - bx * B * uy) * inv
-        else:
-            be1 = bx
-            be2 = by * a2
-    else:
-        s2 = uy * uy + uz * uz
-        if s2 > 0.0:
-            inv = 1.0 / math.sqrt(s2)
-            # b·m̂ = (b_y u_y + b_z u_z)/s, e1 = −sin β x̂ + cos β m̂
-            # (sin β = B s, cos β = A), e2 = x̂ × m̂
-            bu = by * uy + bz * uz
-            be1 = A * bu * inv - B * bx * s2 * inv
-            be2 = (bz * uy - by * uz) * inv
-        else:
-            be1 = A * by
-            be2 = bz
+    be1, be2 = _inplane_field(mode == MODE_FULL_FIXED, A, B, uy, uz, bx, by, bz, c)
     if mode == MODE_RATIO:
-        cb = p[P_RB0] * c + p[P_RB1] * be1 + p[P_RB2] * be2
+        cb = _ratio_cos(p[P_RB0], p[P_RB1], p[P_RB2], c, be1, be2)
         return _lut_lookup(lut, c) / _lut_lookup(lut, cb)
-    cp = p[P_COS_PSI]
-    sp = p[P_SIN_PSI]
-    return _cube_lookup(cube, cp * be1 + sp * be2, cp * be2 - sp * be1, c)
+    x, y = _molecular_xy(p[P_COS_PSI], p[P_SIN_PSI], be1, be2)
+    return _cube_lookup(cube, x, y, c)
 
 
 @njit(cache=True, inline="always", fastmath=FASTMATH)

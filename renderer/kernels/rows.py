@@ -17,7 +17,7 @@ from numba import get_num_threads, njit, prange
 from .layout import (MODE_AXIAL, MODE_FULL_FIXED, MODE_RATIO, P_COS_PSI, P_CUBE, P_DORSAL, P_E2,
                      P_FULL, P_LUT, P_MODE, P_NASAL, P_Q, P_RB0, P_RB1, P_RB2, P_SIGN,
                      P_SIN_PSI, P_TEMPORAL, P_VENTRAL, P_COS_IN, P_COS_OUT, _fold, _tables)
-from .leaf import FASTMATH, _visible
+from .leaf import FASTMATH, _inplane_field, _molecular_xy, _ratio_cos, _visible
 
 
 # ---------------------------------------------------------------------------
@@ -366,22 +366,10 @@ def _tile_frame(p, b, ux, uy, uz, A, B, c, be1, be2):
     bx, by, bz = b[0], b[1], b[2]
     if p[P_MODE] == MODE_FULL_FIXED:
         for j in range(n):
-            a2 = B[j] * uz[j]
-            n2 = 1.0 - a2 * a2
-            ok = n2 > 1e-24
-            inv = 1.0 / math.sqrt(n2 if ok else 1.0)
-            be1[j] = (a2 * c[j] - bz) * inv if ok else bx
-            be2[j] = (by * A[j] - bx * B[j] * uy[j]) * inv if ok else by * a2
+            be1[j], be2[j] = _inplane_field(True, A[j], B[j], uy[j], uz[j], bx, by, bz, c[j])
     else:
         for j in range(n):
-            y = uy[j]
-            z = uz[j]
-            s2 = y * y + z * z
-            ok = s2 > 0.0
-            inv = 1.0 / math.sqrt(s2 if ok else 1.0)
-            bu = by * y + bz * z
-            be1[j] = A[j] * bu * inv - B[j] * bx * s2 * inv if ok else A[j] * by
-            be2[j] = (bz * y - by * z) * inv if ok else bz
+            be1[j], be2[j] = _inplane_field(False, A[j], B[j], uy[j], uz[j], bx, by, bz, c[j])
 
 
 @njit(cache=True, fastmath=FASTMATH, error_model="numpy")
@@ -389,7 +377,7 @@ def _tile_ratio_arg(p, c, be1, be2, cb):
     """Ratio mode: cos θ of population B, RB0·c + RB1·(b·e1) + RB2·(b·e2)."""
     r0, r1, r2 = p[P_RB0], p[P_RB1], p[P_RB2]
     for j in range(c.shape[0]):
-        cb[j] = r0 * c[j] + r1 * be1[j] + r2 * be2[j]
+        cb[j] = _ratio_cos(r0, r1, r2, c[j], be1[j], be2[j])
 
 
 @njit(cache=True, fastmath=FASTMATH, error_model="numpy")
@@ -403,10 +391,7 @@ def _tile_cube_index(p, m, c, be1, be2, idx, fu_out, fv_out):
     h = 0.5 * (m - 1)
     n2 = m - 2
     for j in range(c.shape[0]):
-        e1 = be1[j]
-        e2 = be2[j]
-        x = cp * e1 + sp * e2
-        y = cp * e2 - sp * e1
+        x, y = _molecular_xy(cp, sp, be1[j], be2[j])
         z = c[j]
         ax = abs(x)
         ay = abs(y)
@@ -427,6 +412,7 @@ def _tile_cube_index(p, m, c, be1, be2, idx, fu_out, fv_out):
         fu_out[j] = xu - iu
         fv_out[j] = xv - iv
         idx[j] = f * mm + iu * m + iv
+
 
 @njit(cache=True)
 def _pair_tables(lut):

@@ -12,9 +12,10 @@ from __future__ import annotations
 
 import numpy as np
 
-from .layout import (MODE_AXIAL, MODE_FULL_FIXED, MODE_RATIO, P_COS_PSI, P_CUBE, P_E2, P_FULL,
-                     P_LUT, P_MODE, P_NASAL, P_Q, P_RB0, P_RB1, P_RB2, P_SIGN, P_SIN_PSI,
-                     P_VENTRAL, _tables)
+from ..frames import unit_vec_to_azel_rad
+from .layout import (MODE_AXIAL, MODE_FULL_FIXED, MODE_FULL_MERIDIAN, MODE_RATIO, P_COS_PSI,
+                     P_CUBE, P_E2, P_FULL, P_LUT, P_MODE, P_NASAL, P_Q, P_RB0, P_RB1, P_RB2,
+                     P_SIGN, P_SIN_PSI, P_VENTRAL, _tables)
 
 
 # ---------------------------------------------------------------------------
@@ -159,6 +160,38 @@ def receptor_frames_numpy(u, p):
     return a, e1, e2
 
 
+def mode_axes_numpy(p, a, e1, e2):
+    """The receptor axes an eye's kernel mode reads, from its base axes and in-plane frame.
+
+    The one NumPy statement of the per-mode receptor geometry (the kernels' is
+    :func:`renderer.kernels.leaf._inplane_field` and the helpers after it; the Fisher
+    information of :mod:`renderer.predict.fisher` builds on this one).
+
+    Parameters
+    ----------
+    p : ndarray, shape (PARAMS,)
+        One eye's packed parameters (:func:`renderer.kernels.layout.pack_eyes`).
+    a, e1, e2 : ndarray, shape (N, 3), eye frame
+        Base receptor axes and in-plane frame (:func:`receptor_frames_numpy`).  The map is
+        linear, so passing the field's components b·a, b·e1, b·e2, each (N,), gives the
+        field's components on the returned axes instead.
+
+    Returns
+    -------
+    tuple of ndarray
+        Axial modes: ``(a,)``; ratio: ``(a, a_B)``, population B's axis
+        a_B = RB0·a + RB1·e1 + RB2·e2; full frame: ``(x, y, z)``, the molecular axes
+        x = cos ψ·e1 + sin ψ·e2, y = cos ψ·e2 − sin ψ·e1, z = a.
+    """
+    mode = p[P_MODE]
+    if mode == MODE_RATIO:
+        return a, p[P_RB0] * a + p[P_RB1] * e1 + p[P_RB2] * e2
+    if mode in (MODE_FULL_MERIDIAN, MODE_FULL_FIXED):
+        cp, sp = p[P_COS_PSI], p[P_SIN_PSI]
+        return cp * e1 + sp * e2, cp * e2 - sp * e1, a
+    return (a,)
+
+
 def signal_numpy(dirs_head, R_eye_head, eye_params, b_eye, lut, pick=-1, cubes=None):
     """NumPy twin of the per-direction signal: (N, 3) head-frame unit dirs -> (N,)."""
     luts, cubes = _tables(eye_params, lut, cubes)
@@ -179,12 +212,11 @@ def signal_numpy(dirs_head, R_eye_head, eye_params, b_eye, lut, pick=-1, cubes=N
         if mode == MODE_AXIAL:
             val = lut_lookup_numpy(table, c)
         elif mode == MODE_RATIO:
-            cb = p[P_RB0] * c + p[P_RB1] * (e1 @ b) + p[P_RB2] * (e2 @ b)
+            # on the field's components, in the kernels' order of operations
+            _, cb = mode_axes_numpy(p, c, e1 @ b, e2 @ b)
             val = lut_lookup_numpy(table, c) / lut_lookup_numpy(table, cb)
         else:
-            cp, sp = p[P_COS_PSI], p[P_SIN_PSI]
-            x = cp * e1 + sp * e2
-            y = cp * e2 - sp * e1
+            x, y, _ = mode_axes_numpy(p, a, e1, e2)
             b_mol = np.stack([x @ b, y @ b, c], axis=1)
             val = cube_lookup_numpy(cubes[int(p[P_CUBE])], b_mol)
         acc += np.where(vis, val, 0.0)
@@ -204,9 +236,7 @@ def pattern_numpy(dirs_view, R_head_view, R_eye_head, eye_params, b_eye, lut, pi
 def sample_equirect_numpy(scene, north_col, dirs_world):
     """Bilinear lookup of a 2:1 world panorama at world directions (N, 3) -> (N, C)."""
     SH, SW = scene.shape[:2]
-    d = np.asarray(dirs_world, dtype=np.float64)
-    az = np.arctan2(d[:, 1], d[:, 0])
-    el = np.arcsin(np.clip(-d[:, 2], -1.0, 1.0))
+    az, el = unit_vec_to_azel_rad(dirs_world)
     xs = north_col + az * (SW / (2 * np.pi)) - 0.5
     ys = np.clip((0.5 * np.pi - el) * (SH / np.pi) - 0.5, 0.0, SH - 1.0)
     x0f = np.floor(xs)

@@ -460,12 +460,10 @@ def make_setup(field, layout, response, mosaic, counts, pitch_deg=0.0, roll_deg=
             direct[e] = _direct_fn(r, product)
             if mode == kernels.MODE_RATIO:
                 eye_kind[e] = KIND_RATIO
-                axes_b[sl] = (p[kernels.P_RB0] * a + p[kernels.P_RB1] * e1
-                              + p[kernels.P_RB2] * e2)
+                axes_b[sl] = kernels.mode_axes_numpy(p, a, e1, e2)[1]
             continue
-        # full frame, in-plane reference on the meridian or fixed: as kernels.signal_numpy
-        cp, sp = p[kernels.P_COS_PSI], p[kernels.P_SIN_PSI]
-        mol[sl] = np.stack([cp * e1 + sp * e2, cp * e2 - sp * e1, a], axis=1)
+        # full frame, in-plane reference on the meridian or fixed: the molecular axes
+        mol[sl] = np.stack(kernels.mode_axes_numpy(p, a, e1, e2), axis=1)
         full = response
 
         def evaluate(d, full=full):
