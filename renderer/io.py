@@ -29,6 +29,25 @@ def _read_umask() -> int:
 _FILE_MODE = 0o666 & ~_read_umask()
 
 
+def fsync_folder(folder) -> None:
+    """Flush a folder's entries to disk, so a file just renamed into it survives a power loss.
+
+    Common practice in databases and package managers: the rename is durable only
+    once the directory itself is synced.  Silently skipped where folders cannot be
+    opened (Windows) or synced (some network file systems).
+    """
+    try:
+        fd = os.open(os.fspath(folder), os.O_RDONLY | getattr(os, "O_DIRECTORY", 0))
+    except OSError:
+        return
+    try:
+        os.fsync(fd)
+    except OSError:
+        pass
+    finally:
+        os.close(fd)
+
+
 def atomic_write_bytes(path, data: bytes) -> str:
     """Write ``data`` to ``path`` atomically; returns the path."""
     path = os.fspath(path)
@@ -42,6 +61,7 @@ def atomic_write_bytes(path, data: bytes) -> str:
             os.fsync(fh.fileno())
         os.chmod(tmp, _FILE_MODE)
         os.replace(tmp, path)
+        fsync_folder(folder)
     except BaseException:
         try:
             os.unlink(tmp)
@@ -190,20 +210,11 @@ def read_image_linear(path) -> np.ndarray:
     8-bit images are taken as sRGB-encoded; 16-bit images as linear values (the
     convention of magretina's own 16-bit outputs).  Alpha is dropped.
     """
-    import imageio.v3 as iio
-
     from .composite import from_uint8_srgb
+    from .inputs import open_image_checked
 
     p = os.fspath(path)
-    if not os.path.isfile(p):
-        raise MagretinaError(f"image {p}: no such file")
-    try:
-        img = _read_png16(p)
-        if img is None:
-            img = iio.imread(p)
-    except Exception as exc:  # imageio raises many types for corrupt files
-        raise MagretinaError(f"image {p}: cannot be decoded as an image ({type(exc).__name__}: "
-                             f"{exc})") from None
+    img = open_image_checked(p, "image")
     img = np.asarray(img)
     if img.ndim == 2:
         img = np.repeat(img[..., None], 3, axis=-1)

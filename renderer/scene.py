@@ -58,8 +58,14 @@ class Scene:
     @classmethod
     def load(cls, path, north_col=None) -> "Scene":
         """Read a 2:1 panorama file (8-bit taken as sRGB, 16-bit as linear)."""
+        from .inputs import image_size
         from .io import read_image_linear
 
+        # Shape from the header first: a wrong or huge file is refused before decoding.
+        W, H = image_size(path, "scene")
+        if W != 2 * H:
+            raise MagretinaError(f"scene {os.fspath(path)}: an equirectangular panorama must be 2:1 "
+                                 f"(width = 2 x height); got {W} x {H}")
         img = read_image_linear(path)
         H, W = img.shape[:2]
         if W != 2 * H:

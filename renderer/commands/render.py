@@ -9,7 +9,6 @@ from __future__ import annotations
 
 import argparse
 import os
-import tomllib
 
 from ..errors import ConfigError, MagretinaError
 from . import _common
@@ -50,13 +49,9 @@ def register(sub):
 def _apply_config(a):
     if not a.config:
         return a
-    try:
-        with open(a.config, "rb") as fh:
-            data = tomllib.load(fh)
-    except OSError as exc:
-        raise MagretinaError(f"config {a.config}: cannot read ({exc.strerror})") from None
-    except tomllib.TOMLDecodeError as exc:
-        raise MagretinaError(f"config {a.config}: not valid TOML ({exc})") from None
+    from ..inputs import read_toml
+
+    data = read_toml(a.config, "config")
     probe = argparse.ArgumentParser(add_help=False)
     _add(probe)
     dests = {act.dest for act in probe._actions} - {"config", "help"}

@@ -220,11 +220,9 @@ def load_layout(name_or_path) -> Layout:
         with ref.open("rb") as fh:
             return parse_layout(tomllib.load(fh), source=f"layout preset {s}")
     if os.path.isfile(s):
-        try:
-            with open(s, "rb") as fh:
-                data = tomllib.load(fh)
-        except tomllib.TOMLDecodeError as exc:
-            raise MagretinaError(f"layout file {s}: not valid TOML ({exc})") from None
+        from ..inputs import read_toml
+
+        data = read_toml(s, "layout file")
         return parse_layout(data, source=s)
     raise MagretinaError(f"unknown layout {s!r}: not a preset ({', '.join(preset_names())}) "
                          f"and no such file")

@@ -55,9 +55,17 @@ def save_npz_atomic(path, arrays: dict, meta: dict) -> Path:
 
 def load_npz(path):
     """(arrays dict, meta dict) from a file written by :func:`save_npz_atomic`."""
-    with np.load(path, allow_pickle=False) as z:
-        arrays = {k: z[k] for k in z.files if k != "meta_json"}
-        meta = json.loads(str(z["meta_json"])) if "meta_json" in z.files else {}
+    from ..errors import MagretinaError
+    from ..inputs import load_npz_checked
+
+    z = load_npz_checked(path, "response table")
+    arrays = {k: v for k, v in z.items() if k != "meta_json"}
+    try:
+        meta = json.loads(str(z["meta_json"])) if "meta_json" in z else {}
+    except (ValueError, RecursionError):
+        raise MagretinaError(f"response table {path}: its meta_json is not valid JSON") from None
+    if not isinstance(meta, dict):
+        raise MagretinaError(f"response table {path}: its meta_json is not a JSON object")
     return arrays, meta
 
 
@@ -72,7 +80,7 @@ def lookup(kind: str, key: str):
         return None
     try:
         return load_npz(p)
-    except (OSError, ValueError, KeyError):
+    except (OSError, ValueError, KeyError):  # MagretinaError is a ValueError
         return None  # a damaged entry is recomputed and replaced
 
 

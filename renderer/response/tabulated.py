@@ -9,7 +9,6 @@ yields.  This module does not fit analytic series; see :mod:`.legendre`.
 
 from __future__ import annotations
 
-import csv
 import os
 
 import numpy as np
@@ -20,25 +19,21 @@ from .base import AxialResponse
 
 
 def _read_two_columns(path):
+    from ..inputs import read_csv_rows
+
     rows = []
-    try:
-        with open(path, newline="", encoding="utf-8") as fh:
-            for lineno, row in enumerate(csv.reader(fh), start=1):
-                if not row or row[0].strip().startswith("#"):
-                    continue
-                cells = [c.strip() for c in row if c.strip() != ""]
-                if len(cells) < 2:
-                    raise MagretinaError(f"{path}: line {lineno}: expected two columns "
-                                         f"(theta_deg, value), got {row!r}")
-                try:
-                    rows.append((float(cells[0]), float(cells[1])))
-                except ValueError:
-                    if rows:  # a header is allowed only before the data
-                        raise MagretinaError(f"{path}: line {lineno}: not numbers: {row!r}") from None
-    except OSError as exc:
-        raise MagretinaError(f"response table {path}: cannot read ({exc.strerror})") from None
-    except UnicodeDecodeError:
-        raise MagretinaError(f"response table {path}: not a text CSV file") from None
+    for lineno, row in enumerate(read_csv_rows(path, "response table"), start=1):
+        if not row or row[0].strip().startswith("#"):
+            continue
+        cells = [c.strip() for c in row if c.strip() != ""]
+        if len(cells) < 2:
+            raise MagretinaError(f"{path}: line {lineno}: expected two columns "
+                                 f"(theta_deg, value), got {row!r}")
+        try:
+            rows.append((float(cells[0]), float(cells[1])))
+        except ValueError:
+            if rows:  # a header is allowed only before the data
+                raise MagretinaError(f"{path}: line {lineno}: not numbers: {row!r}") from None
     if len(rows) < 3:
         raise MagretinaError(f"response table {path}: needs at least 3 rows of (theta_deg, value), "
                              f"found {len(rows)}")

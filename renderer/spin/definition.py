@@ -47,7 +47,6 @@ from __future__ import annotations
 
 import math
 import os
-import tomllib
 from importlib import resources
 
 import numpy as np
@@ -215,14 +214,10 @@ def parse_definition(data: dict, source="definition", k_s=None, k_t=None) -> Rad
 
 def read_definition(path, k_s=None, k_t=None) -> RadicalPair:
     """Read a radical-pair definition file (TOML); see the module docstring for the format."""
+    from ..inputs import read_toml
+
     path = os.fspath(path)
-    try:
-        with open(path, "rb") as fh:
-            data = tomllib.load(fh)
-    except OSError as exc:
-        raise MagretinaError(f"radical-pair definition {path}: cannot read ({exc.strerror})") from None
-    except tomllib.TOMLDecodeError as exc:
-        raise MagretinaError(f"radical-pair definition {path}: not valid TOML ({exc})") from None
+    data = read_toml(path, "radical-pair definition")
     return parse_definition(data, source=path, k_s=k_s, k_t=k_t)
 
 
@@ -246,9 +241,10 @@ def preset_path(name: str) -> str:
 
 def preset_metadata(name_or_path: str) -> dict:
     """Top-level text fields (name, description, source, axis_convention) of a file or preset."""
+    from ..inputs import read_toml
+
     path = name_or_path if os.path.isfile(name_or_path) else preset_path(name_or_path)
-    with open(path, "rb") as fh:
-        data = tomllib.load(fh)
+    data = read_toml(path, "radical-pair definition")
     return {k: data[k] for k in ("name", "description", "source", "axis_convention") if k in data}
 
 

@@ -45,7 +45,6 @@ import datetime as _dt
 import hashlib
 import json
 import os
-import tomllib
 from dataclasses import dataclass
 
 from ..errors import ConfigError, MagretinaError
@@ -190,19 +189,9 @@ def config_digest(resolved) -> str:
 
 
 def read_study(path) -> tuple[bytes, dict]:
-    p = os.fspath(path)
-    try:
-        with open(p, "rb") as fh:
-            data = fh.read()
-    except OSError as exc:
-        raise MagretinaError(f"study file {p}: cannot read ({exc.strerror})") from None
-    try:
-        raw = tomllib.loads(data.decode("utf-8"))
-    except UnicodeDecodeError:
-        raise MagretinaError(f"study file {p}: not UTF-8 text") from None
-    except tomllib.TOMLDecodeError as exc:
-        raise MagretinaError(f"study file {p}: not valid TOML ({exc})") from None
-    return data, raw
+    from ..inputs import read_toml_bytes
+
+    return read_toml_bytes(os.fspath(path), "study file")
 
 
 def load_study(path) -> Study:

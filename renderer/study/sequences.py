@@ -32,7 +32,6 @@ and add both to ``SEQUENCES``.
 
 from __future__ import annotations
 
-import csv
 import math
 import os
 from dataclasses import dataclass, field, replace
@@ -354,11 +353,9 @@ ROUTE_COLUMNS = ("time_s", "lat_deg", "lon_deg", "alt_km", "heading_deg")
 def read_route_csv(path):
     """Read a route CSV; returns a dict of (n,) arrays (alt_km/heading_deg may be None)."""
     cols = {c: [] for c in ROUTE_COLUMNS}
-    try:
-        with open(path, newline="", encoding="utf-8") as fh:
-            rows = [r for r in csv.reader(fh) if r and not r[0].lstrip().startswith("#")]
-    except OSError as exc:
-        raise MagretinaError(f"route {path}: cannot read ({exc.strerror})") from None
+    from ..inputs import read_csv_rows
+
+    rows = [r for r in read_csv_rows(path, "route") if r and not r[0].lstrip().startswith("#")]
     if not rows:
         raise MagretinaError(f"route {path}: empty")
     header = [h.strip() for h in rows[0]]
