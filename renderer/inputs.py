@@ -251,7 +251,7 @@ def image_size(path, what="image", max_pixels=MAX_IMAGE_PIXELS) -> tuple[int, in
         with Image.open(p) as im:
             w, h = im.size
     except (OSError, ValueError, SyntaxError, Image.DecompressionBombError) as exc:
-        raise MagretinaError(f"{_where(what, p)}: cannot be read as an image "
+        raise MagretinaError(f"{_where(what, p)}: cannot be decoded as an image "
                              f"({type(exc).__name__}: {exc})") from None
     finally:
         Image.MAX_IMAGE_PIXELS = old

@@ -316,3 +316,25 @@ def composite_inputs(inputs, mean, layout, view, scene, gain, outside) -> np.nda
                            inputs.b_eye, inputs.lut, pick, inv_mean, gain, outside, flat,
                            cubes=inputs.cubes)
     return out
+
+
+def check_signal_nonzero(response, product="singlet", what="the response"):
+    """Refuse a response whose signal is 0 for every field direction.
+
+    The modulation m = s/<s> - 1 divides by the mean signal <s> over the visual
+    field, which is then 0 for any field, pose and layout (e.g. Legendre
+    coefficients [0.0]); refusing here, in validation, keeps the failure out of
+    the rendering workers.  Responses this check cannot evaluate pass (their own
+    validation reports them).
+    """
+    try:
+        try:
+            table = response_lut(response, product, n=257)
+        except (AttributeError, NotImplementedError, TypeError):
+            table = response_cube(response, product, n=16)
+    except (MagretinaError, AttributeError, NotImplementedError, TypeError, ValueError):
+        return
+    if not np.any(table):
+        raise MagretinaError(f"{what}: the {product} signal is 0 for every field direction, so "
+                             f"the mean signal over the visual field is 0 and the modulation "
+                             f"s/<s> - 1 is undefined")

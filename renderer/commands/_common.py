@@ -130,6 +130,47 @@ def scene_from_args(a, width):
     return dusk(max(width, 1024))
 
 
+def add_budget_args(p):
+    g = p.add_argument_group("resources")
+    g.add_argument("--max-memory-gb", type=float, default=None,
+                   help="memory this command may plan to use, GB (default: half the machine's "
+                        "memory, or the environment variable MAGRETINA_MAX_MEMORY_GB)")
+
+
+def check_response_mean(response, product, what):
+    from ..pipeline import check_signal_nonzero
+
+    check_signal_nonzero(response, product, what)
+
+
+def check_out_file(option, path):
+    """An output file path: not empty, no NUL, not an existing folder."""
+    if path is None:
+        return None
+    p = str(path)
+    if not p.strip():
+        raise MagretinaError(f"{option} {path!r}: must name a file")
+    if "\x00" in p:
+        raise MagretinaError(f"{option} {path!r}: holds a NUL character")
+    if os.path.isdir(p):
+        raise MagretinaError(f"{option} {p}: is a folder; give a file name")
+    return p
+
+
+def check_out_dir(option, path):
+    """An output folder path: not empty, no NUL, not an existing file."""
+    if path is None:
+        return None
+    p = str(path)
+    if not p.strip():
+        raise MagretinaError(f"{option} {path!r}: must name a folder")
+    if "\x00" in p:
+        raise MagretinaError(f"{option} {path!r}: holds a NUL character")
+    if os.path.exists(p) and not os.path.isdir(p):
+        raise MagretinaError(f"{option} {p}: exists and is not a folder")
+    return p
+
+
 def refuse_overwrite(paths, force):
     """Raise unless ``force`` if any of ``paths`` already exists."""
     existing = [p for p in paths if p and os.path.exists(p)]

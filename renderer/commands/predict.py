@@ -68,11 +68,42 @@ def counts_from_args(a):
     from ..errors import check_range
     from ..predict import CountModel, make_noise
 
-    t = check_range("--integration-ms", a.integration_ms, 0.0, None, lo_open=True, unit="ms")
+    from ..budget import check_finite
+
+    t = check_finite("--integration-ms", a.integration_ms, unit="ms")
+    flux = check_finite("--flux", a.flux, unit="s^-1")
+    lum = check_finite("--luminance", a.luminance, lo_open=False)
+    check_finite("--noise-floor", a.noise_floor, lo_open=False, unit="counts rms")
+    check_finite("--gain", a.gain, lo_open=False)
     noise = make_noise(a.noise) if a.noise != "gaussian" else make_noise("gaussian",
                                                                          floor_counts=a.noise_floor)
-    return CountModel(flux_per_s=check_range("--flux", a.flux, 0.0, None, lo_open=True, unit="s^-1"),
-                      integration_s=t * 1e-3, gain=a.gain, luminance=a.luminance, noise=noise)
+    return CountModel(flux_per_s=flux, integration_s=t * 1e-3, gain=a.gain, luminance=lum,
+                      noise=noise)
+
+
+def check_predict(a, n_headings):
+    """Refuse before allocating: headings x receptors tables and the --noisy panorama."""
+    from .. import budget
+
+    est = budget.Estimate("predict")
+    if a.density_unit == "deg2":
+        # 41253 square degrees on the sphere; the Fisher sums hold a few float64
+        # (headings x receptors) arrays at once.
+        n_rec = max(1.0, float(a.density) * 41253.0)
+        est.add("heading tables", 4 * 8 * n_rec * n_headings)
+    if a.noisy:
+        if a.width < 8 or a.width % 2:
+            raise MagretinaError(f"--width {a.width}: must be an even number >= 8")
+        est.add_image("noisy panorama", a.width // 2, a.width, budget.VIEW_BYTES_PER_PIXEL)
+        if a.scene:
+            from ..inputs import image_size
+
+            sw, sh = image_size(a.scene, "scene")
+        else:
+            sw = max(a.width, 1024)
+            sh = sw // 2
+        est.add_image("scene", sh, sw, budget.SCENE_BYTES_PER_PIXEL)
+    return est.check(a.max_memory_gb)
 
 
 def register(sub):
@@ -95,6 +126,7 @@ def register(sub):
     g.add_argument("--scene", default=None, help="2:1 scene for --noisy (default: procedural dusk)")
     g.add_argument("--north-col", type=float, default=None, help="column of north in --scene")
     g.add_argument("--force", action="store_true", help="overwrite existing output files")
+    _common.add_budget_args(p)
     p.set_defaults(func=run)
 
 
@@ -105,15 +137,21 @@ def run(a) -> int:
     from ..predict import CAUTION
     from ..predict.summary import predict_summary
 
+    from .. import budget
+    from ..errors import check_range
+
+    step = check_range("--heading-step", a.heading_step, 0.0, 90.0, lo_open=True, unit="degrees")
+    n_headings = budget.check_headings("--heading-step", step)
+    _common.check_out_dir("--plots", a.plots)
+    _common.check_out_file("--noisy", a.noisy)
+    counts = counts_from_args(a)
+    check_predict(a, n_headings)
     field = _common.field_from_args(a)
     pose = Pose(a.yaw, a.pitch, a.roll)
     layout = _common.layout_from_args(a)
     response = _common.response_from_args(a)
+    _common.check_response_mean(response, a.product, "the response")
     spec = spec_from_args(a)
-    counts = counts_from_args(a)
-    from ..errors import check_range
-
-    step = check_range("--heading-step", a.heading_step, 0.0, 90.0, lo_open=True, unit="degrees")
     plot_paths = []
     if a.plots:
         names = ["response.png", "pattern.png", "precision.png"]

@@ -37,6 +37,7 @@ def _add(p):
     g.add_argument("--outside", type=float, default=0.25,
                    help="luminance factor where no eye sees (0..1, default 0.25)")
     g.add_argument("--force", action="store_true", help="overwrite existing files")
+    _common.add_budget_args(p)
 
 
 def register(sub):
@@ -59,7 +60,13 @@ def _apply_config(a):
     if problems:
         raise ConfigError(problems, source=a.config)
     if isinstance(data.get("legendre"), list):
+        if not all(isinstance(x, (int, float)) and not isinstance(x, bool) for x in data["legendre"]):
+            raise ConfigError([f"legendre = {data['legendre']!r}: must be a list of numbers"],
+                              source=a.config)
         data["legendre"] = ",".join(str(x) for x in data["legendre"])
+    problems = _type_problems(data, {act.dest: act for act in probe._actions})
+    if problems:
+        raise ConfigError(problems, source=a.config)
     defaults = probe.parse_args([])
     for k, v in data.items():
         if getattr(a, k) == getattr(defaults, k):  # not given on the command line
@@ -87,6 +94,51 @@ def sidecar_path(out):
     return os.path.splitext(out)[0] + ".json"
 
 
+_PATH_KEYS = ("out", "png16", "pattern", "figure", "scene", "layout", "response_csv",
+              "response_table")
+
+
+def _type_problems(data, actions):
+    """Each config value must have the type its flag parses to (``scene = 5`` is refused)."""
+    problems = []
+    for k, v in data.items():
+        act = actions[k]
+        if act.nargs == 0:  # a switch such as --force
+            ok, want = isinstance(v, bool), "true or false"
+        elif act.type is float:
+            ok, want = isinstance(v, (int, float)) and not isinstance(v, bool), "a number"
+        elif act.type is int:
+            ok, want = isinstance(v, int) and not isinstance(v, bool), "a whole number"
+        elif k in _PATH_KEYS:
+            ok, want = isinstance(v, str), "a string (a file name)"
+        else:  # text options that also take numbers (e.g. grey = 0.5)
+            ok, want = isinstance(v, (str, int, float)) and not isinstance(v, bool), \
+                "a string or a number"
+        if ok and isinstance(v, str) and ("\x00" in v or not v.strip()):
+            ok, want = False, "a non-empty string without NUL characters"
+        if not ok:
+            problems.append(f"{k} = {v!r}: must be {want}")
+    return problems
+
+
+def check_render(a, view):
+    """Refuse a frame whose view, scene and buffers would not fit (before allocating)."""
+    from .. import budget
+
+    H, W = view.shape
+    est = budget.Estimate("render")
+    est.add_image("view", H, W, budget.VIEW_BYTES_PER_PIXEL)
+    sw = max(W, 1024)
+    if a.scene:
+        from ..inputs import image_size
+
+        sw, sh = image_size(a.scene, "scene")
+        est.add_image("scene", sh, sw, budget.SCENE_BYTES_PER_PIXEL)
+    else:
+        est.add_image("scene", sw // 2, sw, budget.SCENE_BYTES_PER_PIXEL)
+    return est.check(getattr(a, "max_memory_gb", None))
+
+
 def run(a) -> int:
     import numpy as np
 
@@ -104,6 +156,7 @@ def run(a) -> int:
     if not a.out:
         raise MagretinaError("give --out FILE.png (or out = \"...\" in the config)")
     for flag in ("out", "png16", "pattern", "figure"):
+        _common.check_out_file("--" + flag, getattr(a, flag))
         _common.check_png_suffix("--" + flag, getattr(a, flag))
     sidecar = None if a.no_sidecar else sidecar_path(a.out)
     _common.refuse_overwrite([a.out, a.png16, a.pattern, a.figure, sidecar], a.force)
@@ -112,8 +165,10 @@ def run(a) -> int:
     field = _common.field_from_args(a)
     pose = Pose(a.yaw, a.pitch, a.roll)
     layout = _common.layout_from_args(a)
-    response = _common.response_from_args(a)
     view = _common.view_from_args(a)
+    check_render(a, view)
+    response = _common.response_from_args(a)
+    _common.check_response_mean(response, a.product, "the response")
     scene = _common.scene_from_args(a, view.shape[1])
     img = renderer.render(field, pose, layout, response, view, scene=scene, gain=a.gain,
                           product=a.product, outside=a.outside)

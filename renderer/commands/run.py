@@ -19,6 +19,11 @@ def register(sub):
     p.add_argument("--force", action="store_true",
                    help="replace another study's folder (or use a non-empty folder)")
     p.add_argument("--quiet", action="store_true", help="no progress bars")
+    p.add_argument("--force-jobs", action="store_true",
+                   help="allow more --jobs than this machine has CPUs")
+    p.add_argument("--max-memory-gb", type=float, default=None,
+                   help="memory the run may plan to use, GB (default: half the machine's memory, "
+                        "or the environment variable MAGRETINA_MAX_MEMORY_GB)")
     p.set_defaults(func=run)
 
 
@@ -26,12 +31,14 @@ def run(a) -> int:
     from ..errors import MagretinaError
     from ..study import run_study
 
-    if a.jobs < 1:
-        raise MagretinaError(f"--jobs {a.jobs}: must be >= 1")
+    from ..budget import check_jobs
+
+    check_jobs(a.jobs, a.force_jobs)
     if a.scheduler and a.executor != "dask":
         raise MagretinaError("--scheduler needs --executor dask")
     s = run_study(a.study, out_dir=a.out, jobs=a.jobs, executor=a.executor,
-                  scheduler=a.scheduler, dry=a.dry_run, force=a.force, progress=not a.quiet)
+                  scheduler=a.scheduler, dry=a.dry_run, force=a.force, progress=not a.quiet,
+                  max_memory_gb=a.max_memory_gb, force_jobs=a.force_jobs)
     if a.dry_run:
         return 0
     print(f"study folder {s['out']}: {s['shots']} shots, {s['frames']} frames; rendered "

@@ -236,6 +236,11 @@ def validate(raw: dict, base_dir: str, problems: list) -> dict:
     g = lambda name: raw.get(name, {})  # noqa: E731
     out = {}
     out["study"] = check_table("study", g("study"), STUDY, problems)
+    _check_texts(raw, problems)
+    name = out["study"].get("name")
+    if isinstance(name, str) and (not name.strip() or len(name) > MAX_NAME):
+        problems.append(f"study.name: {len(name)} characters; must be 1..{MAX_NAME} (it names "
+                        f"the default output folder)")
     out["field"] = _check_field(g("field"), raw, problems)
     needs_site = out["field"].get("model") != "fixed"
     if "site" in raw or needs_site:
@@ -280,6 +285,29 @@ def validate(raw: dict, base_dir: str, problems: list) -> dict:
         out["orientation"] = check_orientation(raw["orientation"], set(out["responses"]),
                                                problems)
     return out
+
+
+#: Longest study name (the default output folder is named after it).
+MAX_NAME = 100
+_CONTROL = {chr(c) for c in range(32)} - {"\t", "\n", "\r"} | {"\x7f"}
+
+
+def _check_texts(node, problems, path=""):
+    """No NUL or other control characters in any string or key: names become folder
+    names, CSV cells and NetCDF attributes, which cannot hold them."""
+    if isinstance(node, dict):
+        for k, v in node.items():
+            p = f"{path}.{k}" if path else str(k)
+            if any(c in _CONTROL for c in str(k)):
+                problems.append(f"{p!r}: key holds a control character")
+            _check_texts(v, problems, p)
+    elif isinstance(node, list):
+        for i, v in enumerate(node):
+            _check_texts(v, problems, f"{path}[{i}]")
+    elif isinstance(node, str) and any(c in _CONTROL for c in node):
+        bad = next(c for c in node if c in _CONTROL)
+        problems.append(f"{path} = {node[:40]!r}: holds the control character {bad!r}; not "
+                        f"allowed in names and texts")
 
 
 def _check_field(tbl, raw, problems):
@@ -437,6 +465,12 @@ def _check_views(tbl, problems):
             problems.append(f"{path}.kind = {kind!r}: allowed {', '.join(map(repr, REGISTRY))}")
             continue
         kw = check_passthrough(path, v, REGISTRY[kind], problems, reserved=("kind",))
+        from ..budget import MAX_PIXELS, view_shape
+
+        shape = view_shape(kind, kw)
+        if shape is not None and shape[0] * shape[1] > MAX_PIXELS:
+            problems.append(f"{path}: {shape[1]} x {shape[0]} = {shape[0] * shape[1]:.3g} pixels; "
+                            f"at most {MAX_PIXELS} pixels per view")
         out[name] = {"kind": kind, **kw}
     return out
 

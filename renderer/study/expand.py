@@ -266,10 +266,17 @@ def plan(study: Study) -> Plan:
         else:
             groups.append([ax])
     dims = tuple((g[0].name, len(g[0].values), tuple(a.name for a in g)) for g in groups)
+    from ..budget import check_frame_count, frame_limit
+
+    n_combos = math.prod(len(g[0].values) for g in groups)
+    # Every shot has at least one frame: refuse before expanding anything.
+    check_frame_count(f"study {study.resolved['study']['name']!r} ({n_combos} shots)",
+                      n_combos * max(1, frames_estimate(study.resolved["sequence"])))
     combos = list(itertools.product(*[range(len(g[0].values)) for g in groups])) or [()]
     seeds = shot_seeds(study.resolved["study"]["seed"], len(combos))
     width = max(3, len(str(len(combos) - 1)))
     pending = []
+    total_frames = 0
     for idx, combo in enumerate(combos):
         r = raw
         coords, params, labels = {}, {}, {}
@@ -287,6 +294,10 @@ def plan(study: Study) -> Plan:
         problems.extend(f"{where}: {p}" for p in sub)
         if sub:
             continue
+        total_frames += frames_estimate(cfg["sequence"])
+        if total_frames > frame_limit():
+            check_frame_count(f"study {study.resolved['study']['name']!r} (by {where})",
+                              total_frames)
         ctx = sequences.SequenceContext(pose=cfg["pose"], site=cfg["site"],
                                         base_dir=study.base_dir)
         try:
@@ -297,6 +308,8 @@ def plan(study: Study) -> Plan:
         pending.append((idx, coords, params, labels, cfg, fs))
     if problems:
         raise ConfigError(_dedupe(problems), source=study.path)
+    check_frame_count(f"study {study.resolved['study']['name']!r}",
+                      sum(len(it[5]) for it in pending))
 
     # One field evaluation per distinct field configuration, over all its frames.
     by_field = {}
@@ -341,6 +354,28 @@ def plan(study: Study) -> Plan:
     if problems:
         raise ConfigError(_dedupe(problems), source=study.path)
     return p
+
+
+def frames_estimate(seq) -> int:
+    """Frames of a resolved ``[sequence]`` table, counted without building the series
+    (0 when only the generator can tell, e.g. a route CSV)."""
+    try:
+        kind = seq.get("kind")
+        if kind == "still":
+            return int(seq["frames"])
+        if kind == "heading-sweep":
+            return sequences.sweep_count(seq["start_deg"], seq["stop_deg"], seq["step_deg"])
+        if kind == "head-scan":
+            d = seq["duration_s"] if seq.get("duration_s") is not None else seq["period_s"]
+            return max(1, int(math.floor(d * seq["fps"] + 1e-9)))
+        if kind == "route" and not seq.get("csv"):
+            a, b = seq["from"], seq["to"]
+            dist = sequences.great_circle(a["lat_deg"], a["lon_deg"], b["lat_deg"],
+                                          b["lon_deg"], [0.0, 1.0])[3]
+            return int(math.floor(dist / seq["speed_m_s"] * seq["fps"] + 1e-9)) + 1
+    except (KeyError, TypeError, ValueError, ZeroDivisionError, OverflowError, MagretinaError):
+        return 0
+    return 0
 
 
 def _check_outputs(p: Plan, problems):

@@ -81,7 +81,7 @@ def expected_files(plan, shot):
     return per_frame, items
 
 
-def dry_run(plan, out_dir, stream=sys.stdout, first=5) -> dict:
+def dry_run(plan, out_dir, stream=sys.stdout, first=5, est=None) -> dict:
     """Print the shot and frame counts, an output size estimate, the first shots."""
     n_files, raw_bytes = 0, 0
     for s in plan.shots:
@@ -101,6 +101,10 @@ def dry_run(plan, out_dir, stream=sys.stdout, first=5) -> dict:
       f"{n_files} frame files -> {out_dir}\n")
     w(f"estimated size: at most {raw_bytes / 1e6:.1f} MB (uncompressed pixel bytes; PNG "
       f"compression makes the files smaller)\n")
+    if est is not None:
+        w(f"estimated resources: {est.describe()}; roughly {est.seconds:.3g} s of rendering "
+          f"(an order of magnitude only)\n")
+        info["estimated_memory_bytes"] = est.memory_bytes
     if plan.dims:
         w("dimensions: " + " x ".join(f"{d[0]}[{d[1]}]" for d in plan.dims) + "\n")
     for s in plan.shots[:first]:
@@ -110,6 +114,50 @@ def dry_run(plan, out_dir, stream=sys.stdout, first=5) -> dict:
     if len(plan.shots) > first:
         w(f"  ... and {len(plan.shots) - first} more shots\n")
     return info
+
+
+def estimate(plan, jobs=1):
+    """The :class:`renderer.budget.Estimate` of running ``plan`` with ``jobs`` workers.
+
+    Every process holds every shared resource (the views' direction tables, the
+    scene, the per-eye metric grids of each distinct geometry), so those count once
+    per process; frames count for the frame limit and the time estimate.
+    """
+    from .. import budget
+    from .build import build_view
+    from .config import resolve_path
+
+    est = budget.Estimate(f"study {plan.study.resolved['study']['name']!r}",
+                          processes=max(1, int(jobs)))
+    for key, cfg in plan.resource_configs.items():
+        widths = []
+        for name, vcfg in cfg["views"].items():
+            H, W = build_view(vcfg).shape
+            est.add_image(f"views.{name}", H, W, budget.VIEW_BYTES_PER_PIXEL)
+            if vcfg["kind"] in ("world-panorama", "head-panorama"):
+                widths.append(W)
+        sc = cfg["scene"]
+        if sc["kind"] == "file":
+            from ..inputs import image_size
+
+            sw, sh = image_size(resolve_path(plan.study.base_dir, sc["path"]), "scene.path")
+        else:
+            sw = sc.get("width") or max(widths + [256])
+            sh = sw // 2
+        est.add_image("scene", sh, sw, budget.SCENE_BYTES_PER_PIXEL)
+        gw = int(cfg["metrics"]["grid_width"])
+        est.add("metric grids", 4 * gw * (gw // 2) * budget.VIEW_BYTES_PER_PIXEL)
+    shapes = {}
+    for s in plan.shots:
+        px = 0
+        for v in s.config["views"].values():
+            k = json.dumps(v, sort_keys=True, default=str)
+            if k not in shapes:
+                shapes[k] = build_view(v).shape
+            px += shapes[k][0] * shapes[k][1]
+        est.pixel_frames += float(px) * len(s.frames)
+    est.frames = plan.n_frames
+    return est
 
 
 @dataclass
@@ -124,7 +172,8 @@ class _ShotState:
 
 
 def run_study(study_path, out_dir=None, jobs=1, executor="local", scheduler=None,
-              dry=False, force=False, progress=True, stream=None, chunk_frames=None) -> dict:
+              dry=False, force=False, progress=True, stream=None, chunk_frames=None,
+              max_memory_gb=None, force_jobs=False) -> dict:
     """Run (or resume) a study into ``out_dir``; returns a summary dict.
 
     Parameters
@@ -135,9 +184,16 @@ def run_study(study_path, out_dir=None, jobs=1, executor="local", scheduler=None
     executor : "local" or "dask"; ``scheduler`` an existing Dask scheduler address
     dry : print the plan only
     force : allow replacing another study's folder
+    max_memory_gb : memory limit (GB) instead of the default, see :mod:`renderer.budget`
+    force_jobs : allow more workers than CPUs
     """
+    from ..budget import check_jobs
+
     stream = stream or sys.stdout
     t0 = time.perf_counter()
+    check_jobs(jobs, force_jobs)
+    if out_dir is not None:
+        _check_out_dir(out_dir)
     study = load_study(study_path)
     started = None
     if not dry and executor == "local" and not scheduler and jobs > 1:
@@ -148,14 +204,24 @@ def run_study(study_path, out_dir=None, jobs=1, executor="local", scheduler=None
         started = start_local(jobs)
     try:
         return _run(study, out_dir, jobs, executor, scheduler, dry, force, progress, stream,
-                    chunk_frames, t0, started)
+                    chunk_frames, t0, started, max_memory_gb)
     finally:
         if started is not None:
             started.close(cancel=True)
 
 
+def _check_out_dir(out_dir):
+    p = os.fspath(out_dir)
+    if not p.strip():
+        raise MagretinaError(f"--out {p!r}: must name a folder")
+    if "\x00" in p:
+        raise MagretinaError(f"--out {p!r}: holds a NUL character")
+    if os.path.exists(p) and not os.path.isdir(p):
+        raise MagretinaError(f"--out {p}: exists and is not a folder")
+
+
 def _run(study, out_dir, jobs, executor, scheduler, dry, force, progress, stream, chunk_frames,
-         t0, started):
+         t0, started, max_memory_gb=None):
     from tqdm import tqdm
 
     plan = make_plan(study)
@@ -163,8 +229,9 @@ def _run(study, out_dir, jobs, executor, scheduler, dry, force, progress, stream
         from .expand import snake
 
         out_dir = os.path.join("outputs", snake(study.resolved["study"]["name"]))
+    est = estimate(plan, jobs).check(max_memory_gb)
     if dry:
-        return dry_run(plan, out_dir, stream)
+        return dry_run(plan, out_dir, stream, est=est)
 
     resources, problems = {}, []
     for key, cfg in plan.resource_configs.items():
