@@ -37,6 +37,7 @@ def register(subparsers):
                    choices=["auto", "separable", "eigenbasis", "liouville", "spectral"], help="spin solver")
     c.add_argument("--no-cache", action="store_true", help="neither read nor write the disk cache")
     c.add_argument("--out", required=True, metavar="TABLE", help="output table file (.npz)")
+    c.add_argument("--force", action="store_true", help="overwrite an existing --out file")
     c.set_defaults(func=cmd_compute)
 
     s = sub.add_parser("show", help="print a table's summary and write a plot beside it")
@@ -60,6 +61,10 @@ def cmd_compute(args) -> int:
     from ..spin import choose_method
     from ..spin.definition import load_pair, preset_metadata
 
+    from . import _common
+
+    _common.check_out_file("--out", args.out)
+    _common.refuse_overwrite([args.out], getattr(args, "force", False))
     field_uT = check_range("--field-uT", args.field_uT, 0.0, 1e9, lo_open=True, unit="uT")
     if args.k_s is not None:
         check_range("--k-s", args.k_s, 0.0, None, lo_open=True, unit="s^-1")
@@ -72,6 +77,12 @@ def cmd_compute(args) -> int:
     pair = load_pair(args.pair, k_s=args.k_s, k_t=args.k_t)
     info = preset_metadata(args.pair)
     method = choose_method(pair, args.method)
+    from .. import budget
+    from ..spin.system import estimate_memory_bytes
+
+    # The solver's own estimate (renderer.spin.system), checked against the shared limit.
+    budget.Estimate("response compute").add(f"'{method}' solver", estimate_memory_bytes(
+        pair, method)).check(check_frames=False)
     n_nodes = len(lebedev_grid(lebedev_order_for(2 * args.lmax + 5))[0])
     print(f"radical pair {info.get('name', args.pair)}: Hilbert dimension {pair.dim}, "
           f"k_s = {pair.k_s:g} s^-1, k_t = {pair.k_t:g} s^-1, solver '{method}', "

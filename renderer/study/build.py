@@ -164,6 +164,12 @@ def build_resources(cfg, base_dir) -> Resources:
     for name, r in cfg["responses"].items():
         responses[name] = build_response(r, base_dir)
         products[name] = r.get("product", "singlet")
+    from ..pipeline import check_signal_nonzero
+
+    for name, resp in responses.items():
+        # Refused here, before any frame, rather than in a worker at its first frame.
+        check_signal_nonzero(resp, products[name],
+                             "response" if name == "default" else f"responses.{name}")
     views = {}
     for name, v in cfg["views"].items():
         view = build_view(v)

@@ -5,7 +5,7 @@ Every executor has ``submit(kind, task)`` (kind ``"render"`` or ``"finish"``, se
 and returns its result (or raises its exception), so the runner streams results
 as they arrive.  Shared resources (layout, views with their precomputed direction
 tables, responses, scene) are sent once per worker: pickled once to a private
-temporary file that each pool worker loads on its first unit (so the pool can be
+file in the study folder's work area that each pool worker loads on its first unit (so the pool can be
 started, and its workers import the library, while the runner is still planning;
 large initializer arguments would also make the spawned workers start one after
 the other, each blocking the parent until it has read them), or scattered to every
@@ -19,7 +19,6 @@ from __future__ import annotations
 
 import os
 import pickle
-import queue
 import tempfile
 import uuid
 
@@ -52,47 +51,42 @@ class InlineExecutor:
 
 
 class LocalExecutor:
-    """A ``multiprocessing`` pool of ``jobs`` spawned worker processes.
+    """A pool of ``jobs`` worker processes (:class:`.pipepool.PipePool`).
 
     ``resources`` may be given later with :meth:`set_resources` (before the first
     ``submit``): :func:`start_local` starts the pool early so that worker start-up
-    overlaps the runner's planning.
+    overlaps the runner's planning.  The resources are pickled into ``work_dir``
+    (the study folder's hidden work area), never into the system temporary folder,
+    so a killed run cannot orphan the file outside its output folder.
     """
 
     name = "local"
 
-    def __init__(self, resources, jobs, numba_threads=None):
-        import multiprocessing as mp
+    def __init__(self, resources, jobs, numba_threads=None, work_dir=None):
+        from .pipepool import PipePool
 
-        # "spawn": forking a parent that already runs numba's thread pool is unsafe.
-        self.pool = mp.get_context("spawn").Pool(
-            jobs, initializer=worker.init_worker, initargs=(numba_threads,))
-        self.q = queue.Queue()
+        # Fresh interpreters, not forks: forking a parent that already runs numba's
+        # thread pool is unsafe; pipes, not multiprocessing queues, so that no named
+        # semaphore is left in /dev/shm by a killed run.
+        self.pool = PipePool(jobs, numba_threads)
         self.res_path = None
         self.closed = False
         if resources is not None:
-            self.set_resources(resources)
+            self.set_resources(resources, work_dir)
 
-    def set_resources(self, resources):
-        fd, path = tempfile.mkstemp(prefix="magretina-resources-", suffix=".pkl")
+    def set_resources(self, resources, work_dir=None):
+        folder = work_dir or tempfile.gettempdir()
+        os.makedirs(folder, exist_ok=True)
+        fd, path = tempfile.mkstemp(prefix="magretina-resources-", suffix=".pkl", dir=folder)
         self.res_path = path
         with os.fdopen(fd, "wb") as fh:
             pickle.dump(resources, fh, protocol=pickle.HIGHEST_PROTOCOL)
 
     def submit(self, kind, task):
-        task = dict(task, resources_path=self.res_path)
-        self.pool.apply_async(_FUNCS[kind], (task,), callback=lambda r: self.q.put((True, r)),
-                              error_callback=lambda e: self.q.put((False, e)))
+        self.pool.submit(kind, dict(task, resources_path=self.res_path))
 
     def next_result(self):
-        while True:
-            try:
-                ok, r = self.q.get(timeout=0.25)
-            except queue.Empty:
-                continue
-            if not ok:
-                raise r
-            return r
+        return self.pool.next_result()
 
     def close(self, cancel=False):
         if self.closed:
@@ -101,10 +95,8 @@ class LocalExecutor:
         try:
             # The runner closes only after it has collected every unit's result, so the
             # workers are idle: ending them at once is safe (each file was written
-            # atomically and reported before its unit returned) and saves the second
-            # or so that a graceful close-and-join of spawned numba workers takes.
-            self.pool.terminate()
-            self.pool.join()
+            # atomically and reported before its unit returned).
+            self.pool.close()
         finally:
             if self.res_path is not None:
                 try:
@@ -171,8 +163,9 @@ def start_local(jobs):
     return LocalExecutor(None, jobs, _threads_per_worker(jobs))
 
 
-def make_executor(kind, resources, jobs, scheduler=None, started=None):
-    """The executor for ``kind``; ``started`` is a pool from :func:`start_local` to use."""
+def make_executor(kind, resources, jobs, scheduler=None, started=None, work_dir=None):
+    """The executor for ``kind``; ``started`` is a pool from :func:`start_local` to use;
+    ``work_dir`` where a local pool's resource file goes (the study's work area)."""
     if kind not in EXECUTORS:
         raise MagretinaError(f"--executor {kind!r}: allowed {', '.join(EXECUTORS)}")
     if jobs < 1:
@@ -185,6 +178,6 @@ def make_executor(kind, resources, jobs, scheduler=None, started=None):
     if jobs == 1:
         return InlineExecutor(resources, threads)
     if started is not None:
-        started.set_resources(resources)
+        started.set_resources(resources, work_dir)
         return started
-    return LocalExecutor(resources, jobs, threads)
+    return LocalExecutor(resources, jobs, threads, work_dir)

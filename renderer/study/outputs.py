@@ -112,10 +112,39 @@ def read_manifest(out_dir) -> dict:
                 continue
             try:
                 entry = json.loads(line)
-                out[int(entry["shot"])] = entry
-            except (ValueError, KeyError, TypeError):
+                k = int(entry["shot"])
+                if entry.get("partial"):
+                    _merge_partial(out, k, entry)
+                else:
+                    out[k] = entry
+            except (ValueError, KeyError, TypeError, AttributeError):
                 continue  # a line torn by a killed run
     return out
+
+
+def _merge_partial(out, k, line):
+    """Fold a per-frame line (written as soon as a frame is on disk) into shot ``k``."""
+    prev = out.get(k)
+    if prev is None:
+        prev = out[k] = {"shot": k, "partial": True, "files": [], "metrics": {}}
+    elif not prev.get("partial"):
+        # A complete entry followed by re-rendered frames (a file had been damaged).
+        m = prev.get("metrics") or []
+        prev = out[k] = {**prev, "partial": True,
+                         "metrics": {str(i): v for i, v in enumerate(m) if v is not None}}
+    files = {r["path"]: r for r in prev["files"]}
+    files.update({r["path"]: r for r in line.get("files", [])})
+    prev["files"] = list(files.values())
+    prev["metrics"].update({str(i): v for i, v in (line.get("metrics") or {}).items()
+                            if v is not None})
+
+
+def entry_metrics(entry) -> dict:
+    """frame index -> metrics of a manifest entry (complete: a list; partial: a mapping)."""
+    m = entry.get("metrics") or {}
+    if isinstance(m, dict):
+        return {int(i): v for i, v in m.items() if v is not None}
+    return {i: v for i, v in enumerate(m) if v is not None}
 
 
 def manifest_line(entry) -> str:
@@ -159,8 +188,29 @@ def write_if_changed(path, data: bytes) -> bool:
     return True
 
 
+#: The study folder's hidden work area (resource files handed to workers).
+WORK_DIR = ".magretina-work"
+
+
+def is_own_temp(name) -> bool:
+    """True for names of the project's own temporary files (atomic-write temps, work area)."""
+    return name == WORK_DIR or (name.startswith(".") and name.endswith(".tmp"))
+
+
+def work_dir(out_dir) -> str:
+    return os.path.join(out_dir, WORK_DIR)
+
+
+def remove_work_dir(out_dir):
+    """Delete the work area and everything in it (stale files of a killed run included)."""
+    import shutil
+
+    shutil.rmtree(work_dir(out_dir), ignore_errors=True)
+
+
 def remove_stale_temps(out_dir):
-    """Delete hidden temporary files left by an interrupted run."""
+    """Delete hidden temporary files and the work area left by an interrupted run."""
+    remove_work_dir(out_dir)
     for root, _dirs, files in os.walk(out_dir):
         for f in files:
             if f.startswith(".") and ".tmp" in f:
@@ -177,9 +227,15 @@ def claim_folder(out_dir, config_sha, force) -> dict:
     non-empty folder that holds no study: refused unless ``force`` (then the other
     study's manifest is discarded and its listed files removed).
     """
-    os.makedirs(out_dir, exist_ok=True)
+    try:
+        os.makedirs(out_dir, exist_ok=True)
+    except OSError as exc:
+        raise MagretinaError(f"--out {out_dir}: cannot create the folder "
+                             f"({exc.strerror or exc})") from None
     sj = os.path.join(out_dir, STUDY_JSON)
-    entries = [e for e in os.listdir(out_dir)]
+    # A folder holding only our own temporary files (a run killed while writing its
+    # first file) is a fresh start.
+    entries = [e for e in os.listdir(out_dir) if not is_own_temp(e)]
     if os.path.isfile(sj):
         try:
             with open(sj, encoding="utf-8") as fh:

@@ -258,7 +258,7 @@ def _run(study, out_dir, jobs, executor, scheduler, dry, force, progress, stream
         st = _ShotState(shot, items=items)
         prev = old.get(shot.index)
         prev_recs = {r["path"]: r for r in prev.get("files", [])} if prev else {}
-        prev_metrics = prev.get("metrics", []) if prev else []
+        prev_metrics = outputs.entry_metrics(prev) if prev else {}
         todo = []
         for i, views in per_frame.items():
             write = {}
@@ -270,7 +270,7 @@ def _run(study, out_dir, jobs, executor, scheduler, dry, force, progress, stream
                         st.keep.append(rec)
                     else:
                         write[v][e] = rel
-            has_m = i < len(prev_metrics) and prev_metrics[i] is not None
+            has_m = i in prev_metrics
             if has_m:
                 st.metrics[i] = prev_metrics[i]
             if any(write[v] for v in write) or (want_metrics and not has_m):
@@ -281,7 +281,8 @@ def _run(study, out_dir, jobs, executor, scheduler, dry, force, progress, stream
                 it["ok_record"] = rec
         states[shot.index] = st
         if not todo:
-            if prev is not None and all("ok_record" in it for it in items):
+            if prev is not None and not prev.get("partial") and \
+                    all("ok_record" in it for it in items):
                 entries[shot.index] = prev
                 continue
         st.rendered = len(todo)
@@ -310,7 +311,8 @@ def _run(study, out_dir, jobs, executor, scheduler, dry, force, progress, stream
         if shots_todo:
             from .executors import make_executor
 
-            ex = make_executor(executor, resources, jobs, scheduler, started=started)
+            ex = make_executor(executor, resources, jobs, scheduler, started=started,
+                               work_dir=outputs.work_dir(out_dir))
             outstanding = 0
             for shot, frames in units:
                 ex.submit("render", _chunk_task(plan, shot, frames, out_dir))
@@ -340,6 +342,7 @@ def _run(study, out_dir, jobs, executor, scheduler, dry, force, progress, stream
     finally:
         bar_f.close()
         bar_s.close()
+    outputs.remove_work_dir(out_dir)
     outputs.compact_manifest(out_dir, entries)
     _write_tables(plan, entries, out_dir)
     summary["wall_s"] = time.perf_counter() - t0

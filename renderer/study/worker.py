@@ -18,6 +18,8 @@ import os
 
 import numpy as np
 
+from ..errors import MagretinaError
+
 _RESOURCES: dict = {}
 
 
@@ -35,6 +37,19 @@ def init_worker(numba_threads: int | None):
 
     from .. import composite, io, pipeline  # noqa: F401
     from . import build, metrics  # noqa: F401
+
+
+_PARENT = {"pid": None}
+
+
+def watch_parent():
+    """Remember the parent process, so a unit can stop when the runner was killed."""
+    _PARENT["pid"] = os.getppid()
+
+
+def parent_gone() -> bool:
+    """True in a pool worker whose runner has ended (it was re-parented)."""
+    return _PARENT["pid"] is not None and os.getppid() != _PARENT["pid"]
 
 
 def _resources(task, resources):
@@ -114,7 +129,7 @@ def render_chunk(task: dict, resources=None) -> dict:
     from ..pipeline import composite_inputs, prepare, visual_field_mean
     from ..pose import Pose
     from . import metrics as metrics_mod
-    from .outputs import sha256_bytes
+    from .outputs import append_manifest, sha256_bytes
 
     res = _resources(task, resources)
     _set_threads(task.get("numba_threads"))
@@ -125,7 +140,12 @@ def render_chunk(task: dict, resources=None) -> dict:
     temporal = dcfg.get("temporal", True)
     records, metrics = [], {}
     for fr in task["frames"]:
+        if parent_gone():
+            # The runner was killed: stop rather than write frames that a resumed run
+            # (possibly already running) will write itself.
+            raise SystemExit(0)
         i = fr["index"]
+        first = len(records)
         field = FieldVector(np.asarray(fr["b_ned_T"]), model=task["field_model"])
         pose = Pose(fr["yaw_deg"], fr["pitch_deg"], fr["roll_deg"])
         rkey = fr["response"]
@@ -133,7 +153,7 @@ def render_chunk(task: dict, resources=None) -> dict:
         inputs = prepare(field, pose, res.layout, response, product)
         mean = visual_field_mean(inputs)
         if mean == 0.0:
-            raise ValueError(f"{task['shot_id']} frame {i}: the mean signal over the visual "
+            raise MagretinaError(f"{task['shot_id']} frame {i}: the mean signal over the visual "
                              f"field is 0; modulation undefined")
         images = {}
         for vi, (vname, view) in enumerate(res.views.items()):
@@ -166,6 +186,13 @@ def render_chunk(task: dict, resources=None) -> dict:
                 temporal=temporal, pattern_grey=grey, scene=res.scene,
                 outside=task["outside"], images=images)
             metrics[i] = metrics_mod.compute(ctx, task["providers"], task["provider_options"])
+        if task.get("journal", True):
+            # Recorded as soon as its files are on disk (each was fsynced and renamed), so a
+            # run killed from here on never renders this frame again.
+            append_manifest(out_dir, {"shot": task["shot"], "partial": True, "frame": i,
+                                      "files": records[first:],
+                                      "metrics": {str(i): metrics.get(i)} if fr["metrics"]
+                                      else {}})
     return {"shot": task["shot"], "records": records, "metrics": metrics,
             "frames": len(task["frames"])}
 

@@ -154,5 +154,6 @@ def test_sigkill_partway_then_resume_is_byte_identical(tmp_path):
     proc.wait()
     assert 2 <= n < 12, f"kill came at {n} manifest lines; the test needs a partial run"
     s = run_study(study, out, progress=False)
-    assert 0 < s["shots_rendered"] < 12
+    # Frames are recorded one by one as they reach the disk: only the rest is redone.
+    assert 0 < s["frames_rendered"] < 72
     assert tree_digest(out) == tree_digest(ref)
