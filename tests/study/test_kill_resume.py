@@ -23,11 +23,30 @@ STUDY = GRID_STUDY.replace("step_deg = 30.0", "step_deg = 45.0").replace(
 N_FRAMES = 6 * 8
 
 
-def _shm():
+def _shm_mapped(pid):
+    """Named POSIX semaphores (/dev/shm/sem.*) mapped by ``pid`` and its children.
+
+    /dev/shm is shared with every other program on the machine, so a before/after
+    listing cannot tell whose a semaphore is; the memory maps of the run's own
+    processes can (a named semaphore is an mmap of its /dev/shm file; one already
+    unlinked is shown "(deleted)" and cannot be left behind).
+    """
+    pids = [pid]
     try:
-        return set(os.listdir("/dev/shm"))
+        with open(f"/proc/{pid}/task/{pid}/children") as fh:
+            pids += [int(x) for x in fh.read().split()]
     except OSError:
-        return set()
+        pass
+    found = set()
+    for p in pids:
+        try:
+            with open(f"/proc/{p}/maps") as fh:
+                # "(deleted)": unlinked at once (anonymous), nothing can outlive the process.
+                found |= {w for ln in fh if "(deleted)" not in ln
+                          for w in ln.split() if w.startswith("/dev/shm/sem.")}
+        except OSError:
+            pass
+    return found
 
 
 def _temps():
@@ -51,7 +70,7 @@ def test_sigkill_two_workers_resume_redoes_no_verified_frame(tmp_path):
     study = write(tmp_path, STUDY)
     ref = str(tmp_path / "ref")
     run_study(study, ref, progress=False)
-    shm0, tmp0 = _shm(), _temps()
+    tmp0 = _temps()
 
     out = str(tmp_path / "killed")
     cmd = [sys.executable, "-m", "renderer", "run", study, "--out", out, "--jobs", "2", "--quiet"]
@@ -62,11 +81,13 @@ def test_sigkill_two_workers_resume_redoes_no_verified_frame(tmp_path):
     man = os.path.join(out, "manifest.jsonl")
     t0 = time.time()
     n = 0
+    sems = None
     while time.time() - t0 < 120 and proc.poll() is None:
         if os.path.isfile(man):
             with open(man) as fh:
                 n = sum(1 for _ in fh)
             if n >= 8:
+                sems = _shm_mapped(proc.pid)
                 break
         time.sleep(0.005)
     os.killpg(proc.pid, signal.SIGKILL)
@@ -82,5 +103,5 @@ def test_sigkill_two_workers_resume_redoes_no_verified_frame(tmp_path):
     assert s["frames_rendered"] == N_FRAMES - len(before)
     assert tree_digest(out) == tree_digest(ref)
     assert _temps() - tmp0 == set()
-    assert {f for f in _shm() - shm0 if "mp-" in f} == set()
+    assert sems == set(), f"the run's processes hold named semaphores: {sems}"
     assert not os.path.exists(os.path.join(out, outputs.WORK_DIR))
