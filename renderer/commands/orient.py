@@ -50,6 +50,8 @@ def register(sub):
     a.add_argument("--bootstrap", type=int, default=1000, help="bootstrap resamples (0 = none)")
     a.add_argument("--seed", type=int, default=0, help="bootstrap/permutation seed")
     a.add_argument("--shot", type=int, default=0, help="which shot of a swept study (index)")
+    a.add_argument("--rose", action="store_true",
+                   help="plot observed headings as a rose diagram instead of dots")
     a.set_defaults(func=run_analyse)
 
 
@@ -132,7 +134,8 @@ def run_analyse(args) -> int:
         write_if_changed(os.path.join(args.out, ANALYSIS_JSON), json_bytes(res))
         obs = {c: hd.angles(c) for c in hd.conditions}
         plot_conditions(os.path.join(args.out, "orientation-observed.png"),
-                        [c for c in conds if c in obs], preds, obs, hd.axial, args.alpha)
+                        [c for c in conds if c in obs], preds, obs, hd.axial, args.alpha,
+                        rose=args.rose)
     if args.json:
         sys.stdout.write(json_bytes(res).decode())
         return 0

@@ -158,6 +158,15 @@ def kl_matrix(mu_c, mu_t, noise):
     ½ Σ [log(v_b/v_a) + (v_a + (a − b)²)/v_b − 1] (Cover & Thomas 2006, ch. 8;
     common practice).  Written with matrix products so that large grids stay fast.
     """
+    from threadpoolctl import threadpool_limits
+
+    # small products: one BLAS thread (OpenBLAS threads spin and slow down on a busy
+    # machine, as noted for the spin solvers in DEVELOPERS.md)
+    with threadpool_limits(1, "blas"):
+        return _kl_matrix(mu_c, mu_t, noise)
+
+
+def _kl_matrix(mu_c, mu_t, noise):
     a = np.asarray(mu_c, float)
     b = np.asarray(mu_t, float)
     if np.any(a <= 0) or np.any(b <= 0):
@@ -348,9 +357,15 @@ class Predictor:
         the preferred heading, then the behavioural spread and the non-orienting
         share are applied.
         """
+        from threadpoolctl import threadpool_limits
+
         n = int(n_animals)
         if n < 1:
             raise MagretinaError(f"n_animals = {n_animals!r}: must be >= 1")
+        with threadpool_limits(1, "blas"):
+            return self._monte_carlo(condition, n, rng, refine)
+
+    def _monte_carlo(self, condition, n, rng, refine):
         mu_c = self.condition_counts(condition)
         G = self.G
         start = rng.integers(0, G, n)
@@ -403,8 +418,3 @@ def sample_headings(prediction: Prediction, n, rng) -> np.ndarray:
     step = 360.0 / G
     idx = rng.choice(G, size=int(n), p=prediction.prob)
     return (prediction.grid_deg[idx] + rng.uniform(-0.5, 0.5, int(n)) * step) % 360.0
-
-
-def summary_of_sample(angles_deg) -> dict:
-    """describe() of a simulated sample (for reports)."""
-    return describe(angles_deg)

@@ -74,9 +74,9 @@ def html_section(study_dir, max_shots=20) -> str:
                              "<tr><th>hypothesis</th><th>condition</th><th>test</th>"
                              "<th>animals</th></tr>")
                 for p in s["power"]:
-                    parts.append(f"<tr><td>{_num(p.get('hypothesis'))}</td>"
-                                 f"<td>{_num(p.get('condition'))}</td><td>{_num(p.get('test'))}</td>"
-                                 f"<td>{_num(p.get('n') if p.get('n') is not None else p.get('note', 'not reached'))}</td></tr>")
+                    n = p.get("n") if p.get("n") is not None else p.get("note", "not reached")
+                    parts.append("<tr>" + "".join(f"<td>{_num(v)}</td>" for v in (
+                        p.get("hypothesis"), p.get("condition"), p.get("test"), n)) + "</tr>")
                 parts.append("</table>")
             for name, cap in ((f"orientation-{s.get('shot_id')}.png", "Predicted heading "
                                "distributions per condition (model prediction)"),

@@ -12,7 +12,6 @@ grows (J ∝ photon count for Poisson noise, common practice).
 
 import io
 import json
-import os
 import re
 from pathlib import Path
 
