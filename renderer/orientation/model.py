@@ -45,7 +45,6 @@ import numpy as np
 
 from ..errors import MagretinaError, check_range
 from ..predict.fisher import make_setup, unit_counts
-from .statistics import describe
 
 __all__ = ["Condition", "Hypothesis", "Behaviour", "Prediction", "Predictor",
            "kl_matrix", "decode_weights", "offset_distribution", "von_mises_smooth",
