@@ -12,8 +12,9 @@ case-insensitively, surrounding blanks ignored):
 * ``axial`` (optional): true/false per row (1/0, yes/no); a condition is axial when
   its rows say so; mixing axial and non-axial rows in one condition is an error.
 
-Lines starting with ``#`` are comments.  The reader refuses files over
-``MAX_BYTES``, non-UTF-8 text, missing columns, empty or non-numeric headings,
+Lines starting with ``#`` are comments.  The file is read through the shared
+defensive layer (:func:`renderer.inputs.read_text_file`: size limit, regular file,
+UTF-8); the reader then refuses missing columns, empty or non-numeric headings,
 angles out of range and rows without a condition, naming file, line and value.
 It returns plain Python structures; it does no statistics.
 """
@@ -27,8 +28,9 @@ import os
 from dataclasses import dataclass
 
 from ..errors import MagretinaError
+from ..inputs import MAX_TEXT_BYTES, read_text_file
 
-MAX_BYTES = 64 * 1024 * 1024
+MAX_BYTES = MAX_TEXT_BYTES
 REQUIRED = ("heading_deg", "condition")
 OPTIONAL = ("animal", "trial", "axial")
 _TRUE = {"1", "true", "yes", "y", "t"}
@@ -80,23 +82,10 @@ def read_headings(path, axial=None) -> Headings:
         column (default False).
     """
     p = os.fspath(path)
-    try:
-        size = os.path.getsize(p)
-    except OSError as exc:
-        raise MagretinaError(f"headings file {p}: cannot read ({exc.strerror})") from None
-    if size > MAX_BYTES:
-        raise MagretinaError(f"headings file {p}: {size} bytes; the limit is {MAX_BYTES} bytes")
-    try:
-        with open(p, "rb") as fh:
-            data = fh.read(MAX_BYTES + 1)
-    except OSError as exc:
-        raise MagretinaError(f"headings file {p}: cannot read ({exc.strerror})") from None
-    if b"\x00" in data:
+    # size, regular file, UTF-8 (BOM dropped) and NUL checks: the shared defensive layer
+    text = read_text_file(p, "headings file", MAX_BYTES)
+    if "\x00" in text:
         raise MagretinaError(f"headings file {p}: contains NUL bytes; not a text CSV file")
-    try:
-        text = data.decode("utf-8-sig")
-    except UnicodeDecodeError as exc:
-        raise MagretinaError(f"headings file {p}: not UTF-8 text (byte {exc.start})") from None
     lines = [(i + 1, ln) for i, ln in enumerate(text.splitlines())
              if ln.strip() and not ln.lstrip().startswith("#")]
     if not lines:
