@@ -246,3 +246,12 @@ def test_study_run_writes_orientation_outputs_and_report(study_file, tmp_path):
     html = Path(build_report(out)).read_text()
     assert "Orientation experiment" in html
     assert len(re.findall(r"data:image/png;base64", html)) >= 2
+
+
+def test_study_without_orientation_table_is_refused(tmp_path, capsys):
+    """`orient predict` on a study with no [orientation] table: exit 2 and a message."""
+    p = tmp_path / "plain.toml"
+    p.write_text('[study]\nname = "plain"\n[field]\nmodel = "fixed"\ntotal_uT = 50.0\n'
+                 'inclination_deg = 60.0\n')
+    assert main(["orient", "predict", str(p)]) == 2
+    assert "no [orientation] table" in capsys.readouterr().err
