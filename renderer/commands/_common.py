@@ -202,7 +202,9 @@ def display_from_args(a):
     from ..dither import check_method
 
     d = make_display(a.display, a.bits, a.black_cd_m2, a.white_cd_m2, a.gamma, a.display_table,
-                     where="display")
+                     names={"kind": "--display", "bits": "--bits", "gamma": "--gamma",
+                            "table": "--display-table", "black_cd_m2": "--black-cd-m2",
+                            "white_cd_m2": "--white-cd-m2"})
     method = check_method(a.dither, "--dither")
     if a.dither_seed is not None and a.dither_seed < 0:
         raise MagretinaError(f"--dither-seed {a.dither_seed}: must be >= 0")
