@@ -23,7 +23,6 @@ and does not write files.
 
 from __future__ import annotations
 
-import csv
 import os
 from dataclasses import dataclass, field
 
@@ -223,14 +222,13 @@ def read_table(path) -> tuple[np.ndarray, np.ndarray]:
     ``#`` lines are comments.  Codes must be integers and strictly increasing,
     luminance strictly increasing; the message names the file and row (line).
     """
+    from .inputs import read_csv_rows
+
     p = os.fspath(path)
     if not os.path.isfile(p):
         raise MagretinaError(f"display table {p}: no such file")
-    try:
-        with open(p, newline="", encoding="utf-8") as fh:
-            lines = [(i + 1, row) for i, row in enumerate(csv.reader(fh))]
-    except (OSError, UnicodeDecodeError) as exc:
-        raise MagretinaError(f"display table {p}: cannot read ({exc})") from None
+    # The shared input layer refuses huge, non-UTF-8 or binary files, naming them.
+    lines = [(i + 1, row) for i, row in enumerate(read_csv_rows(p, "display table"))]
     lines = [(n, [c.strip() for c in r]) for n, r in lines
              if r and any(c.strip() for c in r) and not r[0].lstrip().startswith("#")]
     if not lines:
