@@ -48,6 +48,13 @@ eigenbases), ``eigenbasis`` (k_S = k_T, any coupling; Timmel et al. 1998),
 ``liouville`` (anything; Sylvester equation for the resolvent).  ``auto`` picks the
 first that applies.
 
+Quantum limit (:mod:`.quantum`; a contract other scripts depend on)::
+
+    direction_information(pair, field_T (3,), kind="quantum" | "yield") -> (2, 2) rad^-2
+        # Fisher information about the polar/azimuthal angles (θ, φ) of the field in
+        # the molecular frame, one pair: SLD information of the time-averaged density
+        # operator (equal rates), or the singlet/triplet readout as one Bernoulli trial
+
 Definition files and presets (:mod:`.definition`)::
 
     load_pair(name_or_path, k_s=None, k_t=None) -> RadicalPair
@@ -59,6 +66,7 @@ from .hamiltonian import (GAMMA_E, RAD_S_PER_MT, SpinOperators, electron_operato
                           radical_hamiltonian, radical_operators, singlet_isometry,
                           singlet_projector)
 from .operators import embed, embed_vector, kron_all, spin_matrices
+from .quantum import direction_information
 from .solvers import SOLVERS, choose_method, singlet_yield, yields
 from .system import (G_FREE, Nucleus, Radical, RadicalPair, check_memory,
                      estimate_memory_bytes, point_dipolar_mT)
@@ -69,7 +77,7 @@ __all__ = [
     "radical_hamiltonian", "radical_operators", "electron_operators", "pair_hamiltonian",
     "pair_operators", "singlet_projector", "singlet_isometry", "SpinOperators",
     "GAMMA_E", "RAD_S_PER_MT", "G_FREE", "larmor_frequency_Hz", "point_dipolar_mT",
-    "check_memory", "estimate_memory_bytes", "load_pair", "list_presets", "read_definition",
+    "check_memory", "estimate_memory_bytes", "direction_information", "load_pair", "list_presets", "read_definition",
 ]
 
 
