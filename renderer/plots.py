@@ -175,3 +175,39 @@ def plot_metric_sweep(x, series, path, xlabel="sweep value", ylabel="metric", ti
 
 
 __all__ = ["plot_response", "plot_pattern", "plot_precision", "plot_metric_sweep", "CAPTION"]
+
+
+def plot_information(table, path, title=None):
+    """Quantum and yield Fisher information about the field direction over the sphere.
+
+    Parameters
+    ----------
+    table : renderer.spin.quantum.InformationTable
+        Lebedev nodes in the molecular frame with 2×2 informations in the tangent frame.
+    path : output PNG
+
+    Three panels against the field direction (θ from molecular z, φ from x towards y):
+    Tr F_Q, Tr F_C (rad⁻², one pair) and their ratio along the yield gradient.
+    """
+    theta = np.degrees(np.arccos(np.clip(table.nodes[:, 2], -1, 1)))
+    phi = np.degrees(np.arctan2(table.nodes[:, 1], table.nodes[:, 0]))
+    fig = _figure((13, 4))
+    panels = [(table.trace_quantum, "quantum: Tr F_Q (rad⁻²)", "viridis"),
+              (table.trace_yield, "yield readout: Tr F_C (rad⁻²)", "viridis"),
+              (table.ratio(), "F_Q / F_C along the yield gradient", "magma")]
+    for k, (vals, label, cmap) in enumerate(panels):
+        ax = fig.add_subplot(1, 3, k + 1)
+        ok = np.isfinite(vals)
+        if ok.sum() >= 3:
+            c = ax.tricontourf(phi[ok], theta[ok], vals[ok], levels=20, cmap=cmap)
+            fig.colorbar(c, ax=ax)
+        ax.scatter(phi, theta, s=2, c="k", alpha=0.3)
+        ax.set_xlim(-180, 180)
+        ax.set_ylim(180, 0)
+        ax.set_xlabel("field azimuth φ (deg, molecular frame)")
+        ax.set_ylabel("field polar angle θ (deg)")
+        ax.set_title(label, fontsize=9)
+    b = table.meta.get("field_T", float("nan")) * 1e6
+    fig.suptitle(title or f"Fisher information about the field direction, one radical pair, "
+                          f"|B| = {b:g} µT ({CAPTION})", fontsize=10)
+    return _save(fig, path)

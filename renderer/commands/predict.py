@@ -115,6 +115,12 @@ def register(sub):
     _common.add_pose_args(p)
     _common.add_model_args(p)
     add_prediction_args(p)
+    g = p.add_argument_group("quantum limit")
+    g.add_argument("--quantum-pair", metavar="DEF_OR_PRESET", default=None,
+                   help="also report the quantum bound on field-direction precision of this "
+                        "radical pair (equal rates) beside the receptor-array bound")
+    g.add_argument("--quantum-order", type=int, default=17,
+                   help="Lebedev order of the direction grid of the quantum bound")
     g = p.add_argument_group("output")
     g.add_argument("--json", action="store_true", help="print JSON instead of a table")
     g.add_argument("--plots", metavar="DIR", help="also write the plots (PNG) into DIR")
@@ -167,6 +173,7 @@ def run(a) -> int:
                    "mosaic": spec.describe(), "counts": counts.describe(),
                    "normalisation": "m = s/<s> - 1, <s> the mean over all receptors at each heading",
                    "heading_step_deg": step}
+    quantum = _quantum_bound(a, field) if a.quantum_pair else None
     if a.plots:
         from .. import plots
 
@@ -190,7 +197,8 @@ def run(a) -> int:
         json.dump({"caution": CAUTION, "assumptions": assumptions, "metrics": metrics,
                    "crb_deg_vs_heading": {"headings_deg": fr.headings_deg.tolist(),
                                           "crb_deg": fr.crb_deg.tolist()},
-                   "plots": plot_paths}, sys.stdout, indent=2, default=str, allow_nan=True)
+                   "plots": plot_paths, **({"quantum_bound": quantum} if quantum else {})},
+                  sys.stdout, indent=2, default=str, allow_nan=True)
         print()
         return 0
     print(f"CAUTION: {CAUTION}")
@@ -200,6 +208,43 @@ def run(a) -> int:
     width = max(len(k) for k in metrics)
     for k, v in metrics.items():
         print(f"  {k:<{width}}  {v:.6g}")
+    if quantum:
+        print(f"quantum limit, radical pair {quantum['pair']} at |B| = {quantum['field_uT']:.4g} uT "
+              f"(per pair, field direction; not the heading of the array above):")
+        width = max(len(k) for k in quantum["metrics"])
+        for k, v in quantum["metrics"].items():
+            print(f"  {k:<{width}}  {v:.6g}")
     for pth in plot_paths:
         print(pth)
     return 0
+
+
+def _quantum_bound(a, field):
+    """Sphere summary of the quantum and yield information of ``--quantum-pair`` at |B|.
+
+    The numbers are per radical pair and about the field direction in the molecular
+    frame (θ, φ); N independent pairs scale the information by N.  They stand beside the
+    receptor-array bound, which includes the mosaic, counts and noise, and do not replace it.
+    """
+    import math
+
+    from ..spin.definition import load_pair
+    from ..spin.quantum import compute_information_table
+
+    pair = load_pair(a.quantum_pair)
+    b_T = float(field.total_T)
+    if not b_T > 0:
+        raise MagretinaError("--quantum-pair: the field is zero; the field direction is undefined")
+    s = compute_information_table(pair, b_T, order=a.quantum_order).summary()
+    per_axis_q = s["mean_trace_quantum_rad-2"] / 2
+    per_axis_c = s["mean_trace_yield_rad-2"] / 2
+    one_deg = math.radians(1.0) ** 2
+    metrics = {"quantum_info_per_axis_rad-2": per_axis_q,
+               "yield_info_per_axis_rad-2": per_axis_c,
+               "pairs_for_1deg_quantum": 1.0 / (per_axis_q * one_deg) if per_axis_q > 0 else math.inf,
+               "pairs_for_1deg_yield": 1.0 / (per_axis_c * one_deg) if per_axis_c > 0 else math.inf,
+               "ratio_along_gradient_min": s["ratio_along_gradient_min"],
+               "ratio_along_gradient_median": s["ratio_along_gradient_median"]}
+    return {"pair": a.quantum_pair, "field_uT": b_T * 1e6, "metrics": metrics,
+            "note": "sphere means over field directions in the molecular frame; model prediction"}
+

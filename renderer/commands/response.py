@@ -45,6 +45,19 @@ def register(subparsers):
     s.add_argument("--plot", default=None, help="plot file (default: TABLE with suffix .png)")
     s.set_defaults(func=cmd_show)
 
+    q = sub.add_parser("information", help="quantum and yield Fisher information about the field "
+                                           "direction over the full sphere, with a plot")
+    q.add_argument("pair", metavar="DEF_OR_PRESET",
+                   help="radical-pair definition file (TOML) or preset name (equal rates)")
+    q.add_argument("--field-uT", type=float, required=True, help="field magnitude |B| in microtesla")
+    q.add_argument("--k-s", type=float, default=None, help="recombination rate k_s = k_t, s^-1 "
+                                                            "(default: the file's)")
+    q.add_argument("--order", type=int, default=17, help="Lebedev order of the direction grid")
+    q.add_argument("--no-cache", action="store_true", help="neither read nor write the disk cache")
+    q.add_argument("--out", required=True, metavar="TABLE", help="output table file (.npz); the plot "
+                                                                 "is written beside it (.png)")
+    q.set_defaults(func=cmd_information)
+
     ls = sub.add_parser("presets", help="list the bundled radical-pair presets")
     ls.set_defaults(func=cmd_presets)
 
@@ -156,6 +169,53 @@ def cmd_show(args) -> int:
     return 0
 
 
+def print_information_summary(table, indent=""):
+    """Print the sphere summary of an information table (shared with ``predict``)."""
+    s = table.summary()
+    print(f"{indent}quantum Fisher information (one pair, sphere mean of Tr F_Q): "
+          f"{s['mean_trace_quantum_rad-2']:.4g} rad^-2 (max {s['max_trace_quantum_rad-2']:.4g})")
+    print(f"{indent}yield readout Fisher information (sphere mean of Tr F_C): "
+          f"{s['mean_trace_yield_rad-2']:.4g} rad^-2 (max {s['max_trace_yield_rad-2']:.4g})")
+    print(f"{indent}quantum / yield along the yield gradient: min {s['ratio_along_gradient_min']:.3g}, "
+          f"median {s['ratio_along_gradient_median']:.3g}, max {s['ratio_along_gradient_max']:.3g} "
+          f"(directions where the yield carries >= 1 % of its peak information)")
+    return s
+
+
+def cmd_information(args) -> int:
+    from tqdm import tqdm
+
+    from ..plots import plot_information
+    from ..response.harmonic import lebedev_grid, lebedev_order_for
+    from ..spin.definition import load_pair, preset_metadata
+    from ..spin.quantum import compute_information_table, estimate_information_cost
+
+    field_uT = check_range("--field-uT", args.field_uT, 0.0, 1e9, lo_open=True, unit="uT")
+    if args.k_s is not None:
+        check_range("--k-s", args.k_s, 0.0, None, lo_open=True, unit="s^-1")
+    if lebedev_order_for(max(1, args.order)) != args.order:
+        raise MagretinaError(f"--order = {args.order} is not an available Lebedev order")
+    pair = load_pair(args.pair, k_s=args.k_s, k_t=args.k_s)
+    info = preset_metadata(args.pair)
+    n_nodes = len(lebedev_grid(args.order)[0])
+    mem, flops = estimate_information_cost(pair, args.order)
+    print(f"radical pair {info.get('name', args.pair)}: Hilbert dimension {pair.dim}, "
+          f"k = {pair.k_s:g} s^-1, {n_nodes} directions; about {mem / 2**20:.1f} MiB working "
+          f"memory and {flops / 1e9:.3g} GFLOP (about {flops / 3e9:.3g} s at 3 GFLOP/s; a rough guide)")
+    meta = {"pair_input": os.fspath(args.pair), **{f"pair_{k}": v for k, v in info.items()}}
+    with tqdm(total=n_nodes, unit="dir", desc="directions") as bar:
+        table = compute_information_table(pair, field_uT * 1e-6, order=args.order,
+                                          use_cache=not args.no_cache, progress=bar.update,
+                                          meta=meta)
+    out = table.save(args.out)
+    print_information_summary(table)
+    plot = plot_information(table, Path(args.out).with_suffix(".png"))
+    print(HYPOTHESIS_NOTE)
+    print(f"wrote {out}")
+    print(f"wrote {plot}")
+    return 0
+
+
 def cmd_presets(args) -> int:
     from ..spin.definition import list_presets, load_pair, preset_metadata
 
@@ -166,8 +226,16 @@ def cmd_presets(args) -> int:
         except MagretinaError as exc:
             print(f"{name}: cannot be loaded ({exc})")
             continue
-        desc = preset_metadata(name).get("description", "")
-        print(f"{name}  (Hilbert dimension {dim})  {desc}")
+        meta = preset_metadata(name)
+        status = meta["status"]
+        tag = "default" if status == "primary" else "NOT a default: values not confirmed in primary sources"
+        print(f"{name}  (Hilbert dimension {dim}; {tag})  {meta.get('description', '')}")
+        ro = meta.get("relative_orientation")
+        if ro is not None and not ro.get("published", False):
+            print(f"    relative orientation of the radicals: NOT published; a parameter "
+                  f"(now rotation {ro.get('rotation_deg', 0.0)} deg about {ro.get('rotation_axis')}, "
+                  f"an assumption; {ro.get('note', '')})")
+    print(HYPOTHESIS_NOTE)
     return 0
 
 

@@ -8,6 +8,14 @@ A definition file states one radical pair in the trade's units.  Format
     description = "..."               # optional free text
     source = "..."                    # literature source(s) of the numbers
     axis_convention = "..."           # how the molecular frame is defined
+    status = "primary"                # or "unconfirmed": values not checked against a
+                                      # primary publication (kept out of the defaults)
+
+    [relative_orientation]            # optional: rotation of radical B's tensors (and g)
+    rotation_axis = [1, 0, 0]         #   into radical A's frame, applied after parsing
+    rotation_deg = 45.0
+    published = false                 #   false: the rotation is NOT from a published
+    note = "..."                      #   structure; it is a parameter (load_pair overrides)
 
     [pair]                            # optional; every key optional
     k_s = 1e6                         # s^-1 (a caller may override)
@@ -57,7 +65,9 @@ from .system import Nucleus, Radical, RadicalPair, point_dipolar_mT
 
 FORMAT = "magretina-radical-pair/1"
 _TOP = {"format", "name", "description", "source", "axis_convention", "pair", "radical_a",
-        "radical_b", "a", "b", "k_s", "k_t"}
+        "radical_b", "a", "b", "k_s", "k_t", "status", "relative_orientation"}
+_ORIENT = {"rotation_axis", "rotation_deg", "published", "note"}
+STATUSES = ("primary", "unconfirmed")
 _PAIR = {"k_s", "k_t", "exchange_mT", "dipolar_mT", "dipolar_distance_nm", "dipolar_direction",
          "initial"}
 _RADICAL = {"name", "g", "nuclei", "source"}
@@ -146,7 +156,42 @@ def _radical(d, where, problems):
         return None
 
 
-def parse_definition(data: dict, source="definition", k_s=None, k_t=None) -> RadicalPair:
+def _rotate_radical(rad, rot):
+    """Radical with every hyperfine tensor and the g tensor rotated, A' = R A Rᵀ."""
+    m = rot.as_matrix()
+    nuclei = [Nucleus(n.spin, m @ n.hyperfine_mT @ m.T, name=n.name, gamma_rad_s_T=n.gamma_rad_s_T)
+              for n in rad.nuclei]
+    g = m @ rad.g_tensor @ m.T
+    return Radical(nuclei, g=g, name=rad.name)
+
+
+def _orientation(data, problems, override):
+    """Rotation of radical B into A's frame from [relative_orientation] and an override."""
+    t = data.get("relative_orientation")
+    if t is None and override is None:
+        return None
+    t = dict(t or {})
+    if not isinstance(t, dict):
+        problems.append("[relative_orientation] must be a table")
+        return None
+    _unknown(t, _ORIENT, "[relative_orientation]", problems)
+    if override is not None:
+        t.update({k: v for k, v in override.items() if v is not None})
+    try:
+        ax = np.asarray(t.get("rotation_axis", (1.0, 0.0, 0.0)), dtype=float)
+        ang = float(t.get("rotation_deg", 0.0))
+        if ax.shape != (3,) or not np.all(np.isfinite(ax)) or np.linalg.norm(ax) == 0:
+            raise ValueError(f"rotation_axis must be a non-zero 3-vector, got {t.get('rotation_axis')!r}")
+        if not math.isfinite(ang):
+            raise ValueError(f"rotation_deg must be finite, got {ang!r}")
+    except (TypeError, ValueError) as exc:
+        problems.append(f"[relative_orientation]: {exc}")
+        return None
+    return Rotation.from_rotvec(ax / np.linalg.norm(ax) * math.radians(ang))
+
+
+def parse_definition(data: dict, source="definition", k_s=None, k_t=None,
+                     orientation=None) -> RadicalPair:
     """Build a RadicalPair from a parsed TOML table; all problems are reported at once.
 
     Parameters
@@ -157,8 +202,14 @@ def parse_definition(data: dict, source="definition", k_s=None, k_t=None) -> Rad
         File name used in messages.
     k_s, k_t : float, optional
         Rates (s⁻¹) that override the file's ``[pair]`` values; k_t defaults to k_s.
+    orientation : dict, optional
+        ``{"rotation_axis": (3,), "rotation_deg": float}`` overriding the file's
+        ``[relative_orientation]`` (the rotation taking radical B's tensors into A's frame).
     """
     problems = []
+    status = data.get("status", "primary")
+    if status not in STATUSES:
+        problems.append(f"status = {status!r} is not allowed; allowed: {', '.join(STATUSES)}")
     _unknown(data, _TOP, "top level", problems)
     fmt = data.get("format", FORMAT)
     if fmt != FORMAT:
@@ -181,6 +232,9 @@ def parse_definition(data: dict, source="definition", k_s=None, k_t=None) -> Rad
         key = long if long in data else short
         rad[long] = _radical(data.get(key), key, problems)
     a, b = rad["radical_a"], rad["radical_b"]
+    rot = _orientation(data, problems, orientation)
+    if rot is not None and b is not None:
+        b = _rotate_radical(b, rot)
     ks = k_s if k_s is not None else pair_t.get("k_s")
     if ks is None:
         problems.append("no singlet rate: give k_s in [pair] or on the command line (--k-s)")
@@ -212,22 +266,29 @@ def parse_definition(data: dict, source="definition", k_s=None, k_t=None) -> Rad
     return pair
 
 
-def read_definition(path, k_s=None, k_t=None) -> RadicalPair:
+def read_definition(path, k_s=None, k_t=None, orientation=None) -> RadicalPair:
     """Read a radical-pair definition file (TOML); see the module docstring for the format."""
     from ..inputs import read_toml
 
     path = os.fspath(path)
     data = read_toml(path, "radical-pair definition")
-    return parse_definition(data, source=path, k_s=k_s, k_t=k_t)
+    return parse_definition(data, source=path, k_s=k_s, k_t=k_t, orientation=orientation)
 
 
 def _preset_dir():
     return resources.files(__package__).joinpath("presets")
 
 
-def list_presets() -> list:
-    """Names of the bundled presets (file stems in renderer/spin/presets/)."""
-    return sorted(p.name[:-5] for p in _preset_dir().iterdir() if p.name.endswith(".toml"))
+def list_presets(include_unconfirmed=True) -> list:
+    """Names of the bundled presets (file stems in renderer/spin/presets/).
+
+    With ``include_unconfirmed=False`` only the default presets: those whose every value
+    is cited from a primary publication (``status = "primary"``).
+    """
+    names = sorted(p.name[:-5] for p in _preset_dir().iterdir() if p.name.endswith(".toml"))
+    if include_unconfirmed:
+        return names
+    return [n for n in names if preset_metadata(n).get("status", "primary") == "primary"]
 
 
 def preset_path(name: str) -> str:
@@ -240,15 +301,19 @@ def preset_path(name: str) -> str:
 
 
 def preset_metadata(name_or_path: str) -> dict:
-    """Top-level text fields (name, description, source, axis_convention) of a file or preset."""
+    """Top-level text fields (name, description, source, axis_convention, status,
+    relative_orientation) of a file or preset; status defaults to "primary"."""
     from ..inputs import read_toml
 
     path = name_or_path if os.path.isfile(name_or_path) else preset_path(name_or_path)
     data = read_toml(path, "radical-pair definition")
-    return {k: data[k] for k in ("name", "description", "source", "axis_convention") if k in data}
+    out = {k: data[k] for k in ("name", "description", "source", "axis_convention",
+                                "relative_orientation") if k in data}
+    out["status"] = data.get("status", "primary")
+    return out
 
 
-def load_pair(name_or_path, k_s=None, k_t=None) -> RadicalPair:
+def load_pair(name_or_path, k_s=None, k_t=None, orientation=None) -> RadicalPair:
     """A RadicalPair from a definition file path or a preset name.
 
     Parameters
@@ -257,10 +322,13 @@ def load_pair(name_or_path, k_s=None, k_t=None) -> RadicalPair:
         An existing file, or the name of a bundled preset (see :func:`list_presets`).
     k_s, k_t : float, optional
         Rates (s⁻¹) overriding the file's; k_t defaults to k_s when k_s is given.
+    orientation : dict, optional
+        ``{"rotation_axis": (3,), "rotation_deg": float}``: the relative orientation of
+        the radicals (B's tensors into A's frame) where the file's is not published.
     """
     s = os.fspath(name_or_path)
     if os.path.isfile(s):
-        return read_definition(s, k_s=k_s, k_t=k_t)
+        return read_definition(s, k_s=k_s, k_t=k_t, orientation=orientation)
     if s.endswith(".toml") or os.sep in s:
         raise MagretinaError(f"radical-pair definition {s}: no such file")
-    return read_definition(preset_path(s), k_s=k_s, k_t=k_t)
+    return read_definition(preset_path(s), k_s=k_s, k_t=k_t, orientation=orientation)

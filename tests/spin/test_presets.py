@@ -7,27 +7,48 @@ from renderer.errors import ConfigError, MagretinaError
 from renderer.response.spin_table import compute_spin_table
 from renderer.spin import singlet_yield
 from renderer.spin.definition import (list_presets, load_pair, parse_definition, preset_metadata,
-                                      read_definition)
+                                      preset_path, read_definition)
 
 
 def test_every_preset_loads_and_cites_a_source():
+    """Every preset cites a source; only presets with status "primary" are defaults, and
+    no source text names a software package's data files as the origin of a value."""
     names = list_presets()
     for required in ("toy-axial-n", "fad-trp-n5-n1", "fad-trp-3n", "fad-trp-7n"):
         assert required in names
     for name in names:
         pair = load_pair(name)
         assert pair.k_s > 0
-        if name in ("toy-axial-n", "fad-trp-n5-n1", "fad-trp-3n", "fad-trp-7n"):
-            meta = preset_metadata(name)
-            assert "Hiscock" in meta["source"] and "secondary copy" in meta["source"]
-            assert meta["axis_convention"]
+        meta = preset_metadata(name)
+        assert meta["source"] and meta["axis_convention"]
+        assert meta["status"] in ("primary", "unconfirmed")
+        with open(preset_path(name), encoding="utf-8") as fh:
+            assert "radicalpy" not in fh.read().lower()
+        if name != "fad-trp-7plus7":
+            assert "Hiscock" in meta["source"]
+    assert list_presets(include_unconfirmed=False) == ["toy-axial-n"]
     assert load_pair("fad-trp-7n").dim == 1728
 
 
+def test_unpublished_relative_orientation_is_a_parameter():
+    """Hiscock et al. 2016 (PNAS 113:4634, figure 2 caption) give the 45° angle between the
+    z axes but not the tilt axis: presets say so and the caller can set the rotation; the
+    N1 symmetry axis must then be the rotated z axis (exact up to round-off)."""
+    meta = preset_metadata("fad-trp-n5-n1")
+    assert meta["relative_orientation"]["published"] is False
+    pair = load_pair("fad-trp-n5-n1", orientation={"rotation_axis": [0, 1, 0], "rotation_deg": 30})
+    w, v = np.linalg.eigh(pair.b.nuclei[0].hyperfine_mT)
+    np.testing.assert_allclose(np.abs(v[:, 2]), [np.sin(np.radians(30)), 0, np.cos(np.radians(30))],
+                               atol=1e-12)
+    with pytest.raises(ConfigError, match="rotation_axis"):
+        load_pair("fad-trp-n5-n1", orientation={"rotation_axis": [0, 0, 0]})
+
+
 def test_n5_tensor_as_published():
-    """Flavin N5 tensor of Hiscock et al. 2016 (PNAS 113:4634; secondary copy): principal
-    values (−0.1002, −0.0868, 1.7569) mT, isotropic 0.5233 mT; Trp N1 axial (0, 0, 1.0812) mT
-    at 45° to the flavin z axis (figure 2 caption)."""
+    """Trp N1 axial (0, 0, 1.0812) mT at 45° to the flavin z axis: Hiscock et al. 2016,
+    PNAS 113:4634, figure 2 caption (primary).  The N5 principal values (−0.1002, −0.0868,
+    1.7569) mT are from a secondary copy of that paper (unconfirmed; from memory as a
+    source), checked here only as what the unconfirmed preset stores."""
     pair = load_pair("fad-trp-n5-n1")
     n5 = pair.a.nuclei[0]
     np.testing.assert_allclose(np.linalg.eigvalsh(n5.hyperfine_mT), [-0.1002, -0.0868, 1.7569], atol=1e-4)
@@ -38,10 +59,10 @@ def test_n5_tensor_as_published():
 
 
 def test_published_anisotropy_order():
-    """Anisotropy max − min of Φ_S for the N5 + N1 flavin–tryptophan model at 50 µT and
-    k = 1e6 s⁻¹: Hiscock et al. 2016, PNAS 113:4634, figure 2 shows responses of order
-    several percent for few-nucleus models (from memory; the figure's value is not
-    confirmed here), so only an order-of-magnitude bound is checked: 0.01–0.3."""
+    """Plausibility bound, NOT a regression against a published figure: no published value
+    computed with exactly these parameters (N5 + N1, 45° about x, 50 µT, k = 1e6 s⁻¹) was
+    found.  Few-nucleus flavin models show anisotropies of order a few percent (from
+    memory), so only 0.01–0.3 is checked, with 1/4 ≤ Φ_S ≤ 1 (Haberkorn bounds)."""
     pair = load_pair("fad-trp-n5-n1", k_s=1e6)
     tab = compute_spin_table(pair, 50e-6, lmax=12, use_cache=False)
     aniso = tab.summary()["anisotropy"]
