@@ -66,6 +66,13 @@ class Display:
     gamma: float | None = None
     table: str | None = None
     lut: np.ndarray = field(default=None, repr=False, compare=False)
+    per_channel: bool = False
+
+    @property
+    def channels_alike(self) -> bool:
+        """True when every channel follows the same normalised curve (analytic kinds and
+        grey tables): a grey image's codes are then equal across channels."""
+        return not self.per_channel
 
     @property
     def max_code(self) -> int:
@@ -185,9 +192,9 @@ def make_display(kind="srgb", bits=8, black_cd_m2=None, white_cd_m2=None, gamma=
         if not table:
             raise MagretinaError(f"{key('table')}: missing (a CSV file, required for kind = "
                                  f"'table')")
-        lut, black = table_lut(table, int(bits))
+        lut, black, per_channel = table_lut(table, int(bits))
         white = black + float(lut[:, -1].sum())
-        return Display("table", int(bits), black, white, None, os.fspath(table), lut)
+        return Display("table", int(bits), black, white, None, os.fspath(table), lut, per_channel)
     if table is not None:
         raise MagretinaError(f"{key('table')}: only for kind = 'table' (kind is {kind!r})")
     if kind == "gamma":
@@ -273,8 +280,9 @@ def read_table(path) -> tuple[np.ndarray, np.ndarray]:
     return np.asarray(codes, np.int64), np.asarray(lum, np.float64)
 
 
-def table_lut(path, bits) -> tuple[np.ndarray, float]:
-    """(3, 2**bits) per-channel luminance above black at every code, and black (cd/m²)."""
+def table_lut(path, bits) -> tuple[np.ndarray, float, bool]:
+    """(3, 2**bits) per-channel luminance above black at every code, black (cd/m²), and
+    whether the table was measured per channel."""
     from scipy.interpolate import PchipInterpolator
 
     codes, lum = read_table(path)
@@ -292,9 +300,9 @@ def table_lut(path, bits) -> tuple[np.ndarray, float]:
     if lum.shape[1] == 1:
         black = float(lum[0, 0])
         grey = curves[:, 0] - black
-        return Y_WEIGHTS[:, None] * grey[None, :], black
+        return Y_WEIGHTS[:, None] * grey[None, :], black, False
     black = float(lum[0].mean())
-    return (curves - lum[0][None, :]).T.copy(), black
+    return (curves - lum[0][None, :]).T.copy(), black, True
 
 
 def parse_target(value, display: Display, where="target") -> float:

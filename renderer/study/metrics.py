@@ -63,6 +63,7 @@ class MetricContext:
     scene: object = None
     outside: float = 0.25
     images: dict = field(default_factory=dict, repr=False)
+    codes: dict = field(default_factory=dict, repr=False)
     _cache: dict = field(default_factory=dict, repr=False)
 
     def signal_map(self, view) -> np.ndarray:
@@ -157,11 +158,21 @@ def display(ctx: MetricContext) -> dict:
     for i, name in enumerate(ctx.views):
         tag = _safe(name, i)
         img = ctx.frame_image(name)
-        codes = quantise(disp, img, ctx.dither, ctx.dither_seed(name))
+        # The codes of the frame file when the worker just wrote it (same seed, same
+        # codes: quantising again would only cost time).
+        codes = ctx.codes.get(name)
+        if codes is None:
+            codes = quantise(disp, img, ctx.dither, ctx.dither_seed(name))
         out.update(displayed_stats(disp, img, codes, prefix=f"{tag}_frame_"))
         sig = ctx.signal_map(name)
         pat = pattern_grey(sig, ctx.mean_signal, ctx.gain, grey=ctx.pattern_grey)
-        pcodes = quantise(disp, pat, ctx.dither, ctx.dither_seed(name, pattern=True))
+        seed = ctx.dither_seed(name, pattern=True)
+        if disp.channels_alike:
+            # A grey image on a display whose channels share one curve: quantise one
+            # channel (the dither threshold is shared by the channels anyway).
+            pcodes = np.repeat(quantise(disp, pat[..., :1], ctx.dither, seed), 3, axis=2)
+        else:
+            pcodes = quantise(disp, pat, ctx.dither, seed)
         out.update(displayed_stats(disp, pat, pcodes, mask=np.isfinite(sig),
                                    prefix=f"{tag}_pattern_"))
     return out

@@ -155,7 +155,7 @@ def render_chunk(task: dict, resources=None) -> dict:
         if mean == 0.0:
             raise MagretinaError(f"{task['shot_id']} frame {i}: the mean signal over the visual "
                              f"field is 0; modulation undefined")
-        images = {}
+        images, codes_of = {}, {}
         for vi, (vname, view) in enumerate(res.views.items()):
             targets = fr["files"][vname]  # encoding -> relative path to write (only those)
             if not targets:
@@ -169,6 +169,7 @@ def render_chunk(task: dict, resources=None) -> dict:
                 if enc == "png8":
                     codes = quantise(display, img, method, frame_seed(task["seed"], i, temporal,
                                                                       view=vi))
+                    codes_of[vname] = codes
                     data = display_png_bytes(codes, display, labels)
                 else:
                     data = linear16_png_bytes(img, labels)
@@ -184,7 +185,7 @@ def render_chunk(task: dict, resources=None) -> dict:
                 gain=task["gain"], views=res.views, inputs=inputs, mean_signal=mean,
                 metric_views=res.metric_views, display=display, dither=method,
                 temporal=temporal, pattern_grey=grey, scene=res.scene,
-                outside=task["outside"], images=images)
+                outside=task["outside"], images=images, codes=codes_of)
             metrics[i] = metrics_mod.compute(ctx, task["providers"], task["provider_options"])
         if task.get("journal", True):
             # Recorded as soon as its files are on disk (each was fsynced and renamed), so a

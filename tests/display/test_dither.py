@@ -111,3 +111,15 @@ def test_grey_stays_grey():
     lin = np.repeat(np.linspace(0.1, 0.2, 64 * 64).reshape(64, 64, 1), 3, axis=2)
     q = quantise(d, lin, "noise", seed=3)
     assert np.array_equal(q[..., 0], q[..., 1]) and np.array_equal(q[..., 1], q[..., 2])
+
+
+@pytest.mark.parametrize("method", ["none", "noise", "ordered"])
+def test_one_channel_of_grey_equals_three(method):
+    """Displays whose channels share one curve give a grey image the same codes whether it
+    is quantised as one channel or three (the shortcut the display metrics take)."""
+    lin = np.repeat(np.linspace(0.0, 1.0, 40 * 50).reshape(40, 50, 1), 3, axis=2)
+    for d in (make_display(), make_display("gamma", bits=10, gamma=1.8)):
+        assert d.channels_alike
+        three = quantise(d, lin, method, seed=frame_seed(2, 1))
+        one = quantise(d, lin[..., :1], method, seed=frame_seed(2, 1))
+        np.testing.assert_array_equal(np.repeat(one, 3, axis=2), three)

@@ -109,6 +109,14 @@ def test_study_dithered_gamma_10bit(tmp_path):
                 "world_pattern_michelson_intended", "world_pattern_michelson_displayed",
                 "world_pattern_rms_contrast_displayed"):
         assert key in m[0], key
+    # The displayed numbers describe the files as written: decode each frame's codes and
+    # put them through the same power law (colour-science's gamma_function, IEC-free).
+    colour = pytest.importorskip("colour")
+    for k, p in enumerate(f):
+        codes = _read16(p).reshape(32, 64, 3) >> 6
+        rel = colour.gamma_function(codes / 1023.0, 2.2) @ np.array([0.2126, 0.7152, 0.0722])
+        assert float(m[k]["world_frame_mean_cd_m2_displayed"]) == pytest.approx(
+            80.0 * rel.mean(), rel=1e-12)
     # A rerun writes nothing new: same bytes.
     before = {p: p.read_bytes() for p in f}
     run_study(_study(tmp_path, 'kind = "gamma"\ngamma = 2.2\nbits = 10\ndither = "noise"\n'),
