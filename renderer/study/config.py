@@ -114,6 +114,7 @@ DISPLAY = {
 OUTPUT = {
     "png8": Key(bool, True, doc="PNG frames in the display's codes (8-bit sRGB by default)"),
     "png16": Key(bool, False, doc="16-bit linear PNG frames"),
+    "figures": Key(bool, False, doc="annotated figures (for papers; never stimuli)"),
     "preview": Key(str, "none", choices=PREVIEWS),
     "preview_width": Key(int, 256, lo=8, hi=4096, unit="pixels"),
     "video": Key(str, "none", choices=VIDEOS),

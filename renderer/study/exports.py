@@ -198,7 +198,9 @@ def conditions_csv(plan, entries) -> bytes:
         entry = entries[shot.index]
         fps = playback_fps(shot.config)
         base = {"shot_id": shot.shot_id, **axis_cells(plan, shot)}
-        frame_recs = [r for r in entry["files"] if r.get("frame") is not None]
+        # Stimulus files only: figures are for papers, not for experiment software.
+        frame_recs = [r for r in entry["files"] if r.get("frame") is not None
+                      and r["encoding"] in ("png8", "png16")]
         for rec in sorted(frame_recs, key=lambda r: (r["frame"], r["path"])):
             rows.append({**base, "file": rec["path"], "encoding": rec["encoding"],
                          "view": rec["view"], "frame": rec["frame"], "fps": fps,

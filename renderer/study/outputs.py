@@ -7,6 +7,7 @@ Layout of a study folder::
     frames/<shot>/<view>_<frame>.png          display codes (8-bit sRGB by default)
     frames/<shot>/<view>_<frame>_lin16.png    16-bit linear (gAMA 1.0, cICP)
     timing/<shot>_<view>.csv                  frame files with onset times (s)
+    figures/<shot>/<view>_<frame>.png         annotated figures (output.figures; not stimuli)
     previews/<shot>_<view>.gif|.png           animated previews (APNG uses .png)
     video/<shot>_<view>.mp4|.mkv              videos (lossless: libx264rgb .mp4 or FFV1 .mkv)
     conditions.csv, metrics.csv, metrics.nc   tables for experiment and analysis software
@@ -39,6 +40,8 @@ ENCODINGS = {
     "png8": "8-bit sRGB PNG (IEC 61966-2-1 transfer function; sRGB, gAMA and cHRM chunks)",
     "png16": "16-bit linear-light PNG (code value / 65535 = linear luminance; gAMA 1.0 and "
              "cICP linear)",
+    "figure": "annotated 8-bit sRGB figure (heading, eyes, modulation scale, caution); not a "
+              "stimulus",
     "gif": "animated GIF preview, 8-bit sRGB, palette-quantised (not for measurement)",
     "apng": "animated PNG preview, 8-bit sRGB (downscaled; not for measurement)",
     "mp4": "H.264 yuv420p MP4 (lossy) from the 8-bit sRGB frames, no resizing",
@@ -75,6 +78,8 @@ def sha256_file(path) -> str:
 
 
 def frame_name(shot_id, view, frame, digits, encoding) -> str:
+    if encoding == "figure":
+        return f"figures/{shot_id}/{view}_{frame:0{digits}d}.png"
     suffix = "_lin16.png" if encoding == "png16" else ".png"
     return f"frames/{shot_id}/{view}_{frame:0{digits}d}{suffix}"
 

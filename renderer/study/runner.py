@@ -38,6 +38,8 @@ def encodings_of(cfg) -> dict:
             "srgb", 8) else outputs.display_encoding(d)
     if o["png16"]:
         enc["frames/*/*_lin16.png"] = outputs.ENCODINGS["png16"]
+    if o["figures"]:
+        enc["figures/*/*.png"] = outputs.ENCODINGS["figure"]
     if o["preview"] != "none":
         enc[f"previews/*.{'gif' if o['preview'] == 'gif' else 'png'}"] = \
             outputs.ENCODINGS[o["preview"]]
@@ -60,7 +62,8 @@ def expected_files(plan, shot):
     cfg = shot.config
     o = cfg["output"]
     digits = frame_digits(plan)
-    encs = [e for e in ("png8", "png16") if o[e]]
+    encs = [e for e in ("png8", "png16", "figures") if o[e]]
+    encs = ["figure" if e == "figures" else e for e in encs]
     per_frame = {i: {v: {e: outputs.frame_name(shot.shot_id, v, i, digits, e) for e in encs}
                      for v in cfg["views"]} for i in range(len(shot.frames))}
     fps = exports.playback_fps(cfg)

@@ -109,13 +109,35 @@ def frame_labels(task, fr, vname, view, enc, field, pose, layout, response, prod
                           view_name=vname, outside=task["outside"])
     if enc == "png16":
         what = "16-bit linear light (code/65535)"
+    elif enc == "figure":
+        what = "annotated figure, 8-bit sRGB"
     else:
         what = f"codes for display {display.kind} {display.bits}-bit"
     desc = (f"study {task.get('study_name')!s} shot {task['shot_id']} frame {fr['index']} "
             f"(t = {fr['t_s']:g} s), view {vname}: frame composited onto the scene; {what}")
     warn = ("code values for the measured display in the parameters, not sRGB"
-            if enc != "png16" and display.kind == "table" else None)
+            if enc == "png8" and display.kind == "table" else None)
+    if enc == "figure":
+        warn = "figure for publication; not a stimulus (annotation band, display model not applied)"
     return label_chunks(desc, CAUTION, params, warning=warn, created=False)
+
+
+def figure_bytes(ctx, vname, img, labels, fr) -> bytes:
+    """PNG bytes of the annotated figure of one frame and view (8-bit sRGB)."""
+    from .. import pngmeta
+    from ..composite import modulation_map, to_uint8_srgb
+    from ..figure import annotate
+    from ..io import png_bytes
+    from ..provenance import CAUTION
+
+    m = modulation_map(ctx.signal_map(vname), ctx.mean_signal, ctx.gain)
+    rng = (float(np.nanmin(m)), float(np.nanmax(m))) if np.isfinite(m).any() else (0.0, 0.0)
+    view = ctx.views[vname]
+    pick = getattr(view, "pick", None) if hasattr(view, "pick") else getattr(view, "eye", None)
+    eyes = [e.name for e in ctx.layout.eyes] if pick is None else [str(pick)]
+    fig = annotate(to_uint8_srgb(img), f"heading {fr['yaw_deg']:g} deg, t = {fr['t_s']:g} s, "
+                                       f"view {vname}", eyes, rng, CAUTION, grey=ctx.pattern_grey)
+    return png_bytes(fig, pngmeta.srgb_chunks() + list(labels))
 
 
 def render_chunk(task: dict, resources=None) -> dict:
@@ -155,7 +177,16 @@ def render_chunk(task: dict, resources=None) -> dict:
         if mean == 0.0:
             raise MagretinaError(f"{task['shot_id']} frame {i}: the mean signal over the visual "
                              f"field is 0; modulation undefined")
-        images, codes_of = {}, {}
+        ctx = metrics_mod.MetricContext(
+            shot=task["shot"], shot_id=task["shot_id"], frame=i, t_s=fr["t_s"],
+            seed=task["seed"], params=task["params"], field=field,
+            ambient_ned_T=np.asarray(fr["ambient_ned_T"]), pose=pose,
+            layout=res.layout, response=response, product=product,
+            gain=task["gain"], views=res.views, inputs=inputs, mean_signal=mean,
+            metric_views=res.metric_views, display=display, dither=method,
+            temporal=temporal, pattern_grey=grey, scene=res.scene,
+            outside=task["outside"])
+        images, codes_of = ctx.images, ctx.codes
         for vi, (vname, view) in enumerate(res.views.items()):
             targets = fr["files"][vname]  # encoding -> relative path to write (only those)
             if not targets:
@@ -166,7 +197,9 @@ def render_chunk(task: dict, resources=None) -> dict:
             for enc, rel in targets.items():
                 labels = frame_labels(task, fr, vname, view, enc, field, pose, res.layout,
                                       response, product, display)
-                if enc == "png8":
+                if enc == "figure":
+                    data = figure_bytes(ctx, vname, img, labels, fr)
+                elif enc == "png8":
                     codes = quantise(display, img, method, frame_seed(task["seed"], i, temporal,
                                                                       view=vi))
                     codes_of[vname] = codes
@@ -177,15 +210,6 @@ def render_chunk(task: dict, resources=None) -> dict:
                 records.append({"path": rel, "sha256": sha256_bytes(data), "bytes": len(data),
                                 "frame": i, "view": vname, "encoding": enc})
         if fr["metrics"]:
-            ctx = metrics_mod.MetricContext(
-                shot=task["shot"], shot_id=task["shot_id"], frame=i, t_s=fr["t_s"],
-                seed=task["seed"], params=task["params"], field=field,
-                ambient_ned_T=np.asarray(fr["ambient_ned_T"]), pose=pose,
-                layout=res.layout, response=response, product=product,
-                gain=task["gain"], views=res.views, inputs=inputs, mean_signal=mean,
-                metric_views=res.metric_views, display=display, dither=method,
-                temporal=temporal, pattern_grey=grey, scene=res.scene,
-                outside=task["outside"], images=images, codes=codes_of)
             metrics[i] = metrics_mod.compute(ctx, task["providers"], task["provider_options"])
         if task.get("journal", True):
             # Recorded as soon as its files are on disk (each was fsynced and renamed), so a

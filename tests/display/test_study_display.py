@@ -173,3 +173,28 @@ def test_lossless_video_keeps_dithered_pixels(tmp_path, codec):
     back = read_video(path)
     assert back.shape == (3, 48, 64, 3)
     np.testing.assert_array_equal(back, np.stack(frames))
+
+
+def test_study_figures_are_separate_from_stimuli(tmp_path):
+    """output.figures writes annotated figures under figures/, each with a Warning chunk;
+    the stimulus frames are the same bytes as without figures, and neither conditions.csv
+    nor the timing tables list a figure."""
+    import imageio.v3 as iio
+
+    plain = tmp_path / "plain"
+    run_study(_study(tmp_path, 'dither = "noise"\n'), str(plain), progress=False)
+    text = _study(tmp_path, 'dither = "noise"\n', name="f.toml")
+    with open(text, "a") as fh:
+        fh.write("figures = true\n")
+    out = tmp_path / "out"
+    run_study(text, str(out), progress=False)
+    figs = sorted(os.listdir(out / "figures/shot000"))
+    assert figs == [f"world_{k:04d}.png" for k in range(3)]
+    for name in figs:
+        assert "not a stimulus" in texts(raw_chunks(out / "figures/shot000" / name))["Warning"]
+        f = iio.imread(out / "figures/shot000" / name)
+        a = iio.imread(out / "frames/shot000" / name)
+        assert f.shape[0] > a.shape[0]
+        assert np.array_equal(a, iio.imread(plain / "frames/shot000" / name))
+    listed = (out / "conditions.csv").read_text() + (out / "timing/shot000_world.csv").read_text()
+    assert "figures/" not in listed
