@@ -9,7 +9,6 @@ become one line on stderr and exit status 2, never a traceback.
 
 from __future__ import annotations
 
-import argparse
 import importlib
 import sys
 
@@ -32,8 +31,9 @@ COMMANDS = [
 
 def build_parser() -> argparse.ArgumentParser:
     from . import __version__
+    from .commands._common import MagretinaParser
 
-    parser = argparse.ArgumentParser(
+    parser = MagretinaParser(
         prog="magretina",
         description="Hypothesis stimuli and predictions for a light-dependent radical-pair "
                     "magnetic compass. Outputs are model predictions, not observations of "

@@ -17,6 +17,7 @@ import time
 
 import numpy as np
 
+from .defaults import DEFAULT_GAIN
 from .errors import MagretinaError
 
 MARKER = ".magretina-demo.json"
@@ -26,7 +27,7 @@ SITE = {"name": "Reedmoor field station (invented)", "lat_deg": 53.25, "lon_deg"
         "alt_km": 0.01, "date": "2026-09-15"}
 HEADINGS_DEG = (0, 45, 90, 135, 180, 225, 270, 315)
 LEGENDRE = (0.70, 0.0, 0.10)
-GAIN = 2.0
+GAIN = DEFAULT_GAIN
 
 CAUTION = ("These images are predictions of a model (a hypothetical receptor response and "
            "alignment), for research. They are not observations of animal perception.")

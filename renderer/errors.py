@@ -54,3 +54,19 @@ def check_range(name, value, lo=None, hi=None, *, lo_open=False, hi_open=False, 
         u = f" {unit}" if unit else ""
         raise MagretinaError(f"{name} = {value!r} is out of range; allowed {lb}{lo_s}, {hi_s}{rb}{u}")
     return v
+
+
+def did_you_mean(word, candidates, n=1) -> str:
+    """`` did you mean 'x'?`` for the closest of ``candidates`` to ``word``, or ``""``.
+
+    Uses :func:`difflib.get_close_matches` (ratio cutoff 0.6, its default) on the
+    lower-cased strings, so a change of case alone always finds its match.
+    """
+    import difflib
+
+    cands = [str(c) for c in candidates]
+    low = {c.lower(): c for c in cands}
+    hits = difflib.get_close_matches(str(word).lower(), list(low), n=n)
+    if not hits:
+        return ""
+    return " did you mean " + " or ".join(repr(low[h]) for h in hits) + "?"

@@ -17,6 +17,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from . import kernels
+from .defaults import DEFAULT_GAIN
 from .errors import MagretinaError
 from .response.base import LUT_SIZE
 
@@ -244,7 +245,7 @@ def render_signal(field, pose, layout, response, view, product="singlet", eye_of
     return _signal_map(inputs, view, layout, inputs.lut), visual_field_mean(inputs)
 
 
-def render(field, pose, layout, response, view, scene=None, gain=0.1, product="singlet",
+def render(field, pose, layout, response, view, scene=None, gain=DEFAULT_GAIN, product="singlet",
            outside=0.25, eye_offsets=None) -> np.ndarray:
     """Composite the modulation pattern onto a scene.
 
@@ -256,7 +257,8 @@ def render(field, pose, layout, response, view, scene=None, gain=0.1, product="s
         A 2:1 world panorama (None: the procedural dusk scene at the view's width
         or 2048, whichever is larger).
     gain : float
-        Modulation gain: m = gain·(s/⟨s⟩ − 1), ⟨s⟩ the visual-field mean signal.
+        Modulation gain: m = gain·(s/⟨s⟩ − 1), ⟨s⟩ the visual-field mean signal
+        (default :data:`renderer.defaults.DEFAULT_GAIN`).
     product : "singlet" or "triplet"
         Which reaction product drives the visual signal (s = f or 1 − f).
     outside : float

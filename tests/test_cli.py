@@ -134,8 +134,8 @@ def test_render_with_spin_table_and_alignment(tmp_path, capsys):
                       "--out", str(table)], capsys)
     assert rc == 0, err
     out = tmp_path / "f.png"
-    rc, _, err = run(["render", "--lat", "52", "--lon", "9.5", "--yaw", "20", "--width", "64",
-                      "--response-table", str(table), "--alignment", "tilt,tilt_deg=30",
+    rc, _, err = run(["render", "--lat", "52", "--lon", "9.5", "--date", "2026-06-01", "--yaw", "20",
+                      "--width", "64", "--response-table", str(table), "--alignment", "tilt,tilt_deg=30",
                       "--gain", "2", "--out", str(out)], capsys)
     assert rc == 0, err
     from renderer.composite import to_uint8_srgb

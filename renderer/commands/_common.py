@@ -8,40 +8,178 @@ output location is overwritten without ``--force``.
 
 from __future__ import annotations
 
+import argparse
+import datetime as _dt
 import os
+import re
+import sys
 
-from ..errors import MagretinaError
+from ..defaults import DEFAULT_GAIN
+from ..errors import MagretinaError, did_you_mean
+
+#: The one style of long option names: lower case words joined by hyphens, a
+#: quantity's unit spelled as the last word (``--field-ut``, ``--rf-mhz``,
+#: ``--yaw-deg``).  Counts and pixel sizes carry no unit word.
+OPTION_STYLE = re.compile(r"^--[a-z][a-z0-9]*(-[a-z0-9]+)*$")
 
 
-def add_field_args(p, date_default="2026-06-01"):
+class HelpFormatter(argparse.HelpFormatter):
+    """Help that shows every default (unless the help text already states it)."""
+
+    def _get_help_string(self, action):
+        text = action.help or ""
+        if "%(default)" in text or "default" in text.lower():
+            return text
+        d = action.default
+        if action.option_strings and d is not None and d is not False \
+                and d is not argparse.SUPPRESS and action.nargs != 0:
+            return f"{text} (default: %(default)s)" if text else "default: %(default)s"
+        return text
+
+
+class _StyleMixin:
+    """``add_argument`` that enforces :data:`OPTION_STYLE` and takes hidden ``aliases``.
+
+    Aliases (older spellings kept so scripts keep working) parse like the name but
+    are not shown in ``--help``.
+    """
+
+    def add_argument(self, *names, aliases=(), **kw):
+        for n in names:
+            if n.startswith("--") and not OPTION_STYLE.match(n):
+                raise ValueError(f"option {n!r} does not follow the option style "
+                                 f"(lower case, hyphens, unit last: --field-ut)")
+        long = [n for n in names if n.startswith("--")]
+        if long and "metavar" not in kw and kw.get("type") in (float, int) \
+                and kw.get("action") is None:
+            kw["metavar"] = long[0].rsplit("-", 1)[-1].upper() if "-" in long[0][2:] else "N"
+        action = super().add_argument(*names, **kw)
+        for al in aliases:
+            self._option_string_actions[al.lower()] = action
+        return action
+
+    def add_argument_group(self, *args, **kw):
+        group = _Group(self, *args, **kw)
+        self._action_groups.append(group)
+        return group
+
+
+class _Group(_StyleMixin, argparse._ArgumentGroup):
+    pass
+
+
+class MagretinaParser(_StyleMixin, argparse.ArgumentParser):
+    """The parser of ``magretina`` and every subcommand.
+
+    * every default shown in ``--help`` (:class:`HelpFormatter`);
+    * long options matched case-insensitively (``--Field-UT`` is ``--field-ut``);
+    * a misspelt option or subcommand gets a "did you mean" suggestion;
+    * errors are one line on stderr, exit status 2.
+    """
+
+    def __init__(self, *args, **kw):
+        kw.setdefault("formatter_class", HelpFormatter)
+        super().__init__(*args, **kw)
+
+    def _parse_optional(self, arg_string):
+        if arg_string.startswith("--") and len(arg_string) > 2:
+            name, sep, value = arg_string.partition("=")
+            if name not in self._option_string_actions and name.lower() != name:
+                lowered = name.lower() + sep + value
+                found = super()._parse_optional(lowered)
+                if found and found[0] is not None:
+                    return found
+        return super()._parse_optional(arg_string)
+
+    def _get_option_tuples(self, option_string):
+        # an alias and its name are one action: a prefix of both is not ambiguous
+        out, seen = [], set()
+        for t in super()._get_option_tuples(option_string):
+            if id(t[0]) not in seen:
+                seen.add(id(t[0]))
+                out.append(t)
+        return out
+
+    def _long_options(self):
+        return sorted({s for a in self._actions for s in a.option_strings if s.startswith("--")}
+                      | {s for s in self._option_string_actions if s.startswith("--")})
+
+    def parse_known_args(self, args=None, namespace=None):
+        if not self._subparsers:
+            # report a misspelt option before argparse complains about missing ones
+            argv = list(sys.argv[1:] if args is None else args)
+            for tok in argv[:argv.index("--") if "--" in argv else len(argv)]:
+                if tok.startswith("--") and len(tok) > 2:
+                    found = self._parse_optional(tok)
+                    if found and found[0] is None:
+                        name = tok.partition("=")[0]
+                        self.error(f"unrecognized option {name!r};"
+                                   f"{did_you_mean(name, self._long_options())} "
+                                   f"see '{self.prog} --help'")
+        ns, extras = super().parse_known_args(args, namespace)
+        if extras and not self._subparsers:
+            self.error(f"unrecognized argument(s): {' '.join(extras)}; see '{self.prog} --help'")
+        return ns, extras
+
+    def error(self, message):
+        m = re.search(r"invalid choice: '([^']*)' \(choose from (.*)\)", message)
+        if m:
+            choices = re.findall(r"'([^']*)'", m.group(2))
+            message = message + ";" + did_you_mean(m.group(1), choices)
+        print(f"{self.prog}: error: {message}", file=sys.stderr)
+        self.exit(2)
+
+
+def today_iso() -> str:
+    """Today's date (UTC) as ISO 8601, the default date of every field lookup."""
+    return _dt.datetime.now(_dt.timezone.utc).date().isoformat()
+
+
+def add_field_args(p, date_default=None):
+    """Site or fixed-field options; the date defaults to today (UTC)."""
     g = p.add_argument_group("field")
-    g.add_argument("--lat", type=float, help="geodetic latitude, degrees (-90..90)")
-    g.add_argument("--lon", type=float, help="longitude, degrees east")
-    g.add_argument("--alt-km", type=float, default=0.0, help="altitude above WGS84, km")
-    g.add_argument("--date", default=date_default, help="ISO 8601 date (1900-01-01..2030-01-01)")
+    g.add_argument("--lat-deg", type=float, aliases=["--lat"],
+                   help="geodetic latitude, degrees north (-90..90; south negative)")
+    g.add_argument("--lon-deg", type=float, aliases=["--lon"],
+                   help="longitude, degrees east (west negative)")
+    g.add_argument("--alt-km", type=float, default=0.0, help="altitude above the WGS84 ellipsoid, km")
+    g.add_argument("--date", default=date_default,
+                   help="ISO 8601 date, 1900-01-01..2030-01-01 (default: today, UTC)")
     g.add_argument("--model", default="igrf", help="field model: igrf | dipole")
-    g.add_argument("--field-uT", type=float, help="fixed field: total intensity, µT (instead of a site)")
-    g.add_argument("--inclination", type=float, help="fixed field: inclination, degrees")
-    g.add_argument("--declination", type=float, default=0.0, help="fixed field: declination, degrees")
+    g.add_argument("--field-ut", type=float,
+                   help="fixed field instead of a site: total intensity, µT")
+    g.add_argument("--inclination-deg", type=float, aliases=["--inclination"],
+                   help="fixed field: inclination, degrees (positive down)")
+    g.add_argument("--declination-deg", type=float, default=0.0, aliases=["--declination"],
+                   help="fixed field: declination, degrees east of north")
+
+
+def field_date(a) -> str:
+    """The date of a field lookup: ``--date`` or today (UTC)."""
+    return a.date if getattr(a, "date", None) else today_iso()
 
 
 def field_from_args(a):
     from ..field import at_site, fixed
 
-    if a.field_uT is not None:
-        if a.inclination is None:
-            raise MagretinaError("--field-uT needs --inclination (degrees)")
-        return fixed(a.field_uT, a.inclination, a.declination)
-    if a.lat is None or a.lon is None:
-        raise MagretinaError("give a site (--lat and --lon) or a fixed field (--field-uT, --inclination)")
-    return at_site(a.model, a.lat, a.lon, a.alt_km, a.date)
+    if a.field_ut is not None:
+        if a.inclination_deg is None:
+            raise MagretinaError("--field-ut needs --inclination-deg (degrees)")
+        return fixed(a.field_ut, a.inclination_deg, a.declination_deg)
+    if a.lat_deg is None or a.lon_deg is None:
+        raise MagretinaError("give a site (--lat-deg and --lon-deg) or a fixed field "
+                             "(--field-ut, --inclination-deg)")
+    return at_site(a.model, a.lat_deg, a.lon_deg, a.alt_km, field_date(a))
 
 
 def add_pose_args(p):
     g = p.add_argument_group("head pose")
-    g.add_argument("--yaw", type=float, default=0.0, help="heading, degrees clockwise from north")
-    g.add_argument("--pitch", type=float, default=0.0, help="nose-up, degrees")
-    g.add_argument("--roll", type=float, default=0.0, help="right side down, degrees")
+    g.add_argument("--yaw-deg", type=float, default=0.0, aliases=["--yaw"],
+                   help="heading, degrees clockwise from geographic north")
+    g.add_argument("--pitch-deg", type=float, default=0.0, aliases=["--pitch"],
+                   help="nose up, degrees")
+    g.add_argument("--roll-deg", type=float, default=0.0, aliases=["--roll"],
+                   help="right side down, degrees")
 
 
 def add_model_args(p):
@@ -49,14 +187,16 @@ def add_model_args(p):
     g.add_argument("--layout", default="lateral", help="layout preset name or TOML file")
     g.add_argument("--legendre", default="0.7,0,0.1",
                    help="axial response as Legendre coefficients c0,c1,c2,... (default 0.7,0,0.1)")
-    g.add_argument("--response-csv", help="axial response table: CSV of theta_deg,value")
-    g.add_argument("--response-table", help="spin response table (.npz) from 'magretina response compute'")
+    g.add_argument("--response-csv", metavar="FILE", help="axial response table: CSV of theta_deg,value")
+    g.add_argument("--response-table", metavar="FILE", help="spin response table (.npz) from 'magretina response compute'")
     g.add_argument("--alignment", default=None,
                    help="receptor alignment for every eye: MODE[,key=value,...], e.g. "
                         "'tilt,tilt_deg=54.74', 'disorder,kappa=5', 'full-frame,in_plane=random' "
                         "(modes: normal, chief-ray, tilt, disorder, ratio, full-frame)")
     g.add_argument("--product", default="singlet", help="which product drives vision: singlet | triplet")
-    g.add_argument("--gain", type=float, default=1.0, help="modulation gain (>= 0)")
+    g.add_argument("--gain", type=float, default=DEFAULT_GAIN,
+                   help="modulation gain (>= 0): m = gain·(s/<s> - 1); the default exaggerates "
+                        "the pattern so it is visible (the demo uses the same)")
 
 
 def response_from_args(a):
@@ -104,7 +244,7 @@ def add_view_args(p, default_width=1024):
     g.add_argument("--view", default="world-panorama", help="world-panorama | head-panorama | eye-disc | perspective | retina")
     g.add_argument("--width", type=int, default=default_width, help="panorama width or disc size, pixels")
     g.add_argument("--eye", default=None, help="eye name or index (eye-disc, or to show one eye only)")
-    g.add_argument("--scene", default=None, help="2:1 equirectangular scene image (default: procedural dusk)")
+    g.add_argument("--scene", default=None, metavar="FILE", help="2:1 equirectangular scene image (default: procedural dusk)")
     g.add_argument("--north-col", type=float, default=None,
                    help="column (pixels) of geographic north in the scene (default: width/2)")
 

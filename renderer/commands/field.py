@@ -4,32 +4,55 @@ from __future__ import annotations
 
 import json
 
+from . import _common
+
 
 def register(sub):
     p = sub.add_parser("field", help="print the geomagnetic field vector at a site and date",
-                       description="Field vector in local NED (nT) with inclination and declination.")
-    p.add_argument("--lat", type=float, required=True, help="geodetic latitude, degrees (-90..90)")
-    p.add_argument("--lon", type=float, required=True, help="longitude, degrees east")
-    p.add_argument("--alt-km", type=float, default=0.0, help="altitude above WGS84, km")
-    p.add_argument("--date", default="2026-06-01", help="ISO 8601 date within 1900.0-2030.0")
-    p.add_argument("--model", default="igrf", help="igrf | dipole")
-    p.add_argument("--json", action="store_true", help="print JSON")
+                       description="Field vector in local north-east-down axes (nT) with "
+                                   "inclination and declination.")
+    p.add_argument("--lat-deg", type=float, required=True, aliases=["--lat"],
+                   help="geodetic latitude, degrees north (-90..90; south negative)")
+    p.add_argument("--lon-deg", type=float, required=True, aliases=["--lon"],
+                   help="longitude, degrees east (west negative)")
+    p.add_argument("--alt-km", type=float, default=0.0, help="altitude above the WGS84 ellipsoid, km")
+    p.add_argument("--date", default=None,
+                   help="ISO 8601 date within 1900-01-01..2030-01-01 (default: today, UTC)")
+    p.add_argument("--model", default="igrf", help="field model: igrf | dipole")
+    p.add_argument("--json", action="store_true", help="print JSON instead of a table")
     p.set_defaults(func=run)
+
+
+def latlon_text(lat_deg, lon_deg, digits=4) -> str:
+    """``'12.0500° S, 75.3000° W'``: a site with its hemispheres instead of signs.
+
+    Longitudes are wrapped to (-180, 180] first (common practice of geographic
+    notation: east and west up to 180°).
+    """
+    lon = (float(lon_deg) + 180.0) % 360.0 - 180.0
+    if lon == -180.0:
+        lon = 180.0
+    lat = float(lat_deg)
+    ns = "S" if lat < 0 else "N"
+    ew = "W" if lon < 0 else "E"
+    return f"{abs(lat):.{digits}f}° {ns}, {abs(lon):.{digits}f}° {ew}"
 
 
 def run(a) -> int:
     from ..field import at_site
 
-    f = at_site(a.model, a.lat, a.lon, a.alt_km, a.date)
+    date = _common.field_date(a)
+    f = at_site(a.model, a.lat_deg, a.lon_deg, a.alt_km, date)
     d = f.as_dict()
     if a.json:
         print(json.dumps(d, indent=2))
         return 0
-    print(f"{f.model} at {d['site']['lat_deg']:.4f} N, {d['site']['lon_deg']:.4f} E, "
-          f"{d['site']['alt_km']:g} km, {f.date}")
+    when = f"{f.date}" + ("" if a.date else " (today; choose another day with --date)")
+    print(f"{f.model} at {latlon_text(d['site']['lat_deg'], d['site']['lon_deg'])}, "
+          f"{d['site']['alt_km']:g} km, {when}")
     for key, label in (("north_nT", "north (X)"), ("east_nT", "east (Y)"), ("down_nT", "down (Z)"),
                        ("horizontal_nT", "horizontal (H)"), ("total_nT", "total (F)")):
         print(f"  {label:<15} {d[key]:12.1f} nT")
-    print(f"  {'inclination (I)':<15} {d['inclination_deg']:12.3f} deg")
-    print(f"  {'declination (D)':<15} {d['declination_deg']:12.3f} deg")
+    print(f"  {'inclination (I)':<15} {d['inclination_deg']:12.3f}°")
+    print(f"  {'declination (D)':<15} {d['declination_deg']:12.3f}°")
     return 0

@@ -39,7 +39,7 @@ def add_prediction_args(p):
     g.add_argument("--noise", default="poisson", help="poisson | gaussian")
     g.add_argument("--noise-floor", type=float, default=1.0,
                    help="gaussian noise: additive floor, counts rms (shot noise added)")
-    g.add_argument("--heading-step", type=float, default=2.0,
+    g.add_argument("--heading-step-deg", type=float, default=2.0, aliases=["--heading-step"],
                    help="heading grid step for the Cramér–Rao curve, degrees")
     g.add_argument("--threshold", type=float, default=0.01,
                    help="contrast threshold (Weber fraction); default 0.01, a rule of thumb for "
@@ -146,14 +146,15 @@ def run(a) -> int:
     from .. import budget
     from ..errors import check_range
 
-    step = check_range("--heading-step", a.heading_step, 0.0, 90.0, lo_open=True, unit="degrees")
-    n_headings = budget.check_headings("--heading-step", step)
+    step = check_range("--heading-step-deg", a.heading_step_deg, 0.0, 90.0, lo_open=True,
+                       unit="degrees")
+    n_headings = budget.check_headings("--heading-step-deg", step)
     _common.check_out_dir("--plots", a.plots)
     _common.check_out_file("--noisy", a.noisy)
     counts = counts_from_args(a)
     check_predict(a, n_headings)
     field = _common.field_from_args(a)
-    pose = Pose(a.yaw, a.pitch, a.roll)
+    pose = Pose(a.yaw_deg, a.pitch_deg, a.roll_deg)
     layout = _common.layout_from_args(a)
     response = _common.response_from_args(a)
     _common.check_response_mean(response, a.product, "the response")

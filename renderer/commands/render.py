@@ -7,30 +7,30 @@ flags given on the command line override the file.  Unknown keys are errors.
 
 from __future__ import annotations
 
-import argparse
 import os
 
-from ..errors import ConfigError, MagretinaError
+from ..errors import ConfigError, MagretinaError, did_you_mean
 from . import _common
 
 
 def _add(p):
-    p.add_argument("--config", help="flat TOML file with the same settings as the flags")
+    p.add_argument("--config", metavar="FILE", help="flat TOML file with the same settings as the flags")
     _common.add_field_args(p)
     _common.add_pose_args(p)
     _common.add_model_args(p)
     _common.add_view_args(p)
     _common.add_display_args(p)
     g = p.add_argument_group("output")
-    g.add_argument("--out", help="PNG of the composited frame in the display's codes (8-bit sRGB "
+    g.add_argument("--out", metavar="FILE", help="PNG of the composited frame in the display's codes (8-bit sRGB "
                                  "by default)")
-    g.add_argument("--png16", help="also write a 16-bit linear-light PNG here")
-    g.add_argument("--pattern", help="also write the pattern alone on uniform grey here (display "
+    g.add_argument("--png16", metavar="FILE",
+                   help="also write a 16-bit linear-light PNG to FILE")
+    g.add_argument("--pattern", metavar="FILE", help="also write the pattern alone on uniform grey here (display "
                                      "codes, like --out)")
     g.add_argument("--grey", default="0.5",
                    help="luminance of the --pattern background: relative 0..1, 'X cd/m2' or "
                         "'F white' (default 0.5)")
-    g.add_argument("--figure", help="also write an annotated figure here (for papers; never a "
+    g.add_argument("--figure", metavar="FILE", help="also write an annotated figure here (for papers; never a "
                                     "stimulus)")
     g.add_argument("--no-sidecar", action="store_true",
                    help="do not write the JSON sidecar beside --out")
@@ -53,12 +53,17 @@ def _apply_config(a):
     from ..inputs import read_toml
 
     data = read_toml(a.config, "config")
-    probe = argparse.ArgumentParser(add_help=False)
+    probe = _common.MagretinaParser(add_help=False)
     _add(probe)
     dests = {act.dest for act in probe._actions} - {"config", "help"}
-    problems = [f"unknown key {k!r}; allowed: {', '.join(sorted(dests))}" for k in data if k not in dests]
+    # older spellings (``lat``, ``yaw``, ``field_uT``) and any case map to the key of today
+    names = {s.lstrip("-").replace("-", "_").lower(): act.dest
+             for s, act in probe._option_string_actions.items() if act.dest in dests}
+    problems = [f"unknown key {k!r};{did_you_mean(k, dests)} allowed: {', '.join(sorted(dests))}"
+                for k in data if str(k).lower() not in names]
     if problems:
         raise ConfigError(problems, source=a.config)
+    data = {names[str(k).lower()]: v for k, v in data.items()}
     if isinstance(data.get("legendre"), list):
         if not all(isinstance(x, (int, float)) and not isinstance(x, bool) for x in data["legendre"]):
             raise ConfigError([f"legendre = {data['legendre']!r}: must be a list of numbers"],
@@ -163,7 +168,7 @@ def run(a) -> int:
     display, method, seed = _common.display_from_args(a)
     grey = _grey(a.grey, display)
     field = _common.field_from_args(a)
-    pose = Pose(a.yaw, a.pitch, a.roll)
+    pose = Pose(a.yaw_deg, a.pitch_deg, a.roll_deg)
     layout = _common.layout_from_args(a)
     view = _common.view_from_args(a)
     check_render(a, view)
@@ -175,7 +180,7 @@ def run(a) -> int:
     params = frame_params(field, pose, layout, response, view, a.gain, a.product, display,
                           method, seed if method != "none" else None,
                           temporal=None, outside=a.outside, pattern_grey=grey)
-    what = (f"{type(view).__name__} frame, heading {a.yaw:g} deg, composited onto the scene; "
+    what = (f"{type(view).__name__} frame, heading {a.yaw_deg:g} deg, composited onto the scene; "
             f"codes for display {display.kind} {display.bits}-bit")
     warn = None if display.kind != "table" else (
         "code values for the measured display in the parameters, not sRGB")
@@ -207,7 +212,7 @@ def run(a) -> int:
 
         m = modulation_map(sig, mean, a.gain)
         eyes = [e.name for e in layout.eyes] if view_pick(view) is None else [str(view_pick(view))]
-        fig = annotate(to_uint8_srgb(img), f"heading {a.yaw:g} deg, {type(view).__name__}",
+        fig = annotate(to_uint8_srgb(img), f"heading {a.yaw_deg:g} deg, {type(view).__name__}",
                        eyes, (np.nanmin(m), np.nanmax(m)) if np.isfinite(m).any() else (0, 0),
                        CAUTION, grey=grey)
         write_srgb8_codes(a.figure, fig, label_chunks("annotated figure of a " + what, CAUTION, params,

@@ -17,7 +17,8 @@ def register(sub):
                                    "measurements.")
     p.add_argument("study_dir", metavar="STUDY_DIR", help="folder written by 'magretina run'")
     p.add_argument("--out", help="HTML file to write (default STUDY_DIR/report.html)")
-    p.add_argument("--thumb", type=int, default=192, help="thumbnail size, pixels (16..1024)")
+    p.add_argument("--thumb-px", type=int, default=192, aliases=["--thumb"],
+                   help="thumbnail size, pixels (16..1024)")
     p.add_argument("--max-frames", type=int, default=400, help="at most this many thumbnails")
     p.add_argument("--force", action="store_true", help="overwrite an existing report")
     p.add_argument("--check-browser", action="store_true",
@@ -32,7 +33,7 @@ def run(a) -> int:
 
     if a.max_frames < 0:
         raise MagretinaError(f"--max-frames = {a.max_frames}: must be >= 0")
-    out = build_report(a.study_dir, out=a.out, thumb_px=a.thumb, max_frames=a.max_frames,
+    out = build_report(a.study_dir, out=a.out, thumb_px=a.thumb_px, max_frames=a.max_frames,
                        force=a.force)
     print(out)
     if a.check_browser:

@@ -28,11 +28,12 @@ def register(subparsers):
     c = sub.add_parser("compute", help="compute a full-sphere table from a definition or preset")
     c.add_argument("pair", metavar="DEF_OR_PRESET",
                    help="radical-pair definition file (TOML) or preset name (see 'response presets')")
-    c.add_argument("--field-uT", type=float, required=True, help="field magnitude |B| in microtesla")
+    c.add_argument("--field-ut", type=float, required=True, help="field magnitude |B|, µT")
     c.add_argument("--k-s", type=float, default=None, help="singlet recombination rate, s^-1 "
                                                             "(default: the file's)")
     c.add_argument("--k-t", type=float, default=None, help="triplet rate, s^-1 (default: k_s)")
-    c.add_argument("--lmax", type=int, default=16, help="highest spherical-harmonic degree (even)")
+    c.add_argument("--lmax", type=int, default=16,
+                   help="highest spherical-harmonic degree of the fit (even, 0..64)")
     c.add_argument("--method", default="auto",
                    choices=["auto", "separable", "eigenbasis", "liouville", "spectral"], help="spin solver")
     c.add_argument("--no-cache", action="store_true", help="neither read nor write the disk cache")
@@ -41,7 +42,8 @@ def register(subparsers):
     c.set_defaults(func=cmd_compute)
 
     s = sub.add_parser("show", help="print a table's summary and write a plot beside it")
-    s.add_argument("table", metavar="TABLE")
+    s.add_argument("table", metavar="TABLE",
+                   help="response table (.npz) written by 'magretina response compute'")
     s.add_argument("--plot", default=None, help="plot file (default: TABLE with suffix .png)")
     s.set_defaults(func=cmd_show)
 
@@ -78,7 +80,7 @@ def cmd_compute(args) -> int:
 
     _common.check_out_file("--out", args.out)
     _common.refuse_overwrite([args.out], getattr(args, "force", False))
-    field_uT = check_range("--field-uT", args.field_uT, 0.0, 1e9, lo_open=True, unit="uT")
+    field_uT = check_range("--field-ut", args.field_ut, 0.0, 1e9, lo_open=True, unit="µT")
     if args.k_s is not None:
         check_range("--k-s", args.k_s, 0.0, None, lo_open=True, unit="s^-1")
     if args.k_t is not None:

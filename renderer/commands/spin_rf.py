@@ -23,7 +23,7 @@ NOTE = ("Model prediction of the radical-pair hypothesis for the stated paramete
 
 def _pair_args(p):
     p.add_argument("pair", metavar="DEF_OR_PRESET", help="radical-pair definition (TOML) or preset name")
-    p.add_argument("--field-uT", type=float, required=True, help="static field magnitude |B0|, µT")
+    p.add_argument("--field-ut", type=float, required=True, help="static field magnitude |B0|, µT")
     p.add_argument("--k-s", type=float, default=None, help="singlet rate, s^-1 (default: the file's)")
     p.add_argument("--k-t", type=float, default=None, help="triplet rate, s^-1 (default: k_s)")
 
@@ -31,7 +31,7 @@ def _pair_args(p):
 def _load(args):
     from ..spin.definition import load_pair
 
-    check_range("--field-uT", args.field_uT, 0.0, 1e9, lo_open=True, unit="uT")
+    check_range("--field-ut", args.field_ut, 0.0, 1e9, lo_open=True, unit="µT")
     if args.k_t is not None and args.k_s is None:
         raise MagretinaError("--k-t needs --k-s as well")
     return load_pair(args.pair, k_s=args.k_s, k_t=args.k_t)
@@ -61,7 +61,9 @@ def register(subparsers):
     p.add_argument("--tol", type=float, default=1e-6, help="error bound of the spectral method")
     p.add_argument("--samples", type=int, default=256, help="Monte Carlo samples per direction")
     p.add_argument("--out", default=None, metavar="TABLE", help="run and write the table (.npz)")
-    p.add_argument("--run-dir", default=None, help="folder for per-direction results (resume)")
+    p.add_argument("--run-dir", default=None,
+                   help="folder for per-direction results, so an interrupted run resumes "
+                        "(default: none, no resume)")
     p.set_defaults(func=cmd_plan)
 
     s = subparsers.add_parser("rf-spectrum", help="singlet-yield change against RF frequency",
@@ -70,11 +72,12 @@ def register(subparsers):
                                           "averaged). " + NOTE)
     _pair_args(s)
     s.add_argument("--field-dir", default="0,0,1", help="B0 direction, molecular frame 'x,y,z'")
-    s.add_argument("--rf-nT", type=float, required=True, help="RF peak amplitude, nT")
+    s.add_argument("--rf-nt", type=float, required=True, help="RF peak amplitude, nT")
     s.add_argument("--rf-dir", default="1,0,0", help="RF direction, molecular frame 'x,y,z'")
-    s.add_argument("--f-min-MHz", type=float, default=0.1)
-    s.add_argument("--f-max-MHz", type=float, default=5.0)
-    s.add_argument("--points", type=int, default=50)
+    s.add_argument("--f-min-mhz", type=float, default=0.1, help="lowest RF frequency, MHz")
+    s.add_argument("--f-max-mhz", type=float, default=5.0, help="highest RF frequency, MHz")
+    s.add_argument("--points", type=int, default=50,
+                   help="number of frequencies, evenly spaced from --f-min-mhz to --f-max-mhz (2..10000)")
     s.add_argument("--out", required=True, help="output JSON; the plot goes beside it (.png)")
     s.set_defaults(func=cmd_spectrum)
 
@@ -83,12 +86,15 @@ def register(subparsers):
                                           "to the static field, its azimuth about B0 averaged. "
                                           + NOTE)
     _pair_args(t)
-    t.add_argument("--rf-nT", type=float, required=True, help="RF peak amplitude, nT")
-    t.add_argument("--rf-MHz", type=float, required=True, help="RF frequency, MHz")
-    t.add_argument("--rf-angle-deg", type=float, default=90.0, help="angle between B1 and B0")
-    t.add_argument("--lmax", type=int, default=8)
-    t.add_argument("--out", required=True, metavar="TABLE")
-    t.add_argument("--run-dir", default=None)
+    t.add_argument("--rf-nt", type=float, required=True, help="RF peak amplitude, nT")
+    t.add_argument("--rf-mhz", type=float, required=True, help="RF frequency, MHz")
+    t.add_argument("--rf-angle-deg", type=float, default=90.0, help="angle between B1 and B0, degrees")
+    t.add_argument("--lmax", type=int, default=8,
+                   help="highest spherical-harmonic degree of the fit (even, 0..64)")
+    t.add_argument("--out", required=True, metavar="TABLE", help="output response table (.npz)")
+    t.add_argument("--run-dir", default=None,
+                   help="folder for per-direction results, so an interrupted run resumes "
+                        "(default: none, no resume)")
     t.set_defaults(func=cmd_rf_table)
     return p
 
@@ -112,7 +118,7 @@ def cmd_plan(args) -> int:
 
     pair = _load(args)
     lmax = _lmax(args.lmax)
-    b = args.field_uT * 1e-6
+    b = args.field_ut * 1e-6
     check_range("--tol", args.tol, 0.0, 0.1, lo_open=True)
     n_nodes = len(lebedev_grid(lebedev_order_for(2 * lmax + 5))[0])
     n_solve = (n_nodes + 1) // 2
@@ -166,15 +172,15 @@ def cmd_spectrum(args) -> int:
     from ..spin.rf import plot_resonance_spectrum, resonance_spectrum
 
     pair = _load(args)
-    check_range("--rf-nT", args.rf_nT, 0.0, None, lo_open=True, unit="nT")
-    lo = check_range("--f-min-MHz", args.f_min_MHz, 0.0, None, lo_open=True, unit="MHz")
-    hi = check_range("--f-max-MHz", args.f_max_MHz, lo, None, lo_open=True, unit="MHz")
+    check_range("--rf-nt", args.rf_nt, 0.0, None, lo_open=True, unit="nT")
+    lo = check_range("--f-min-mhz", args.f_min_mhz, 0.0, None, lo_open=True, unit="MHz")
+    hi = check_range("--f-max-mhz", args.f_max_mhz, lo, None, lo_open=True, unit="MHz")
     if not 2 <= args.points <= 10000:
         raise MagretinaError(f"--points = {args.points} is out of range; allowed [2, 10000]")
-    b0 = args.field_uT * 1e-6 * _direction(args.field_dir, "--field-dir")
+    b0 = args.field_ut * 1e-6 * _direction(args.field_dir, "--field-dir")
     freqs = np.linspace(lo, hi, args.points) * 1e6
     with tqdm(total=len(freqs), unit="freq", desc="RF spectrum") as bar:
-        spec = resonance_spectrum(pair, b0, args.rf_nT * 1e-9, freqs,
+        spec = resonance_spectrum(pair, b0, args.rf_nt * 1e-9, freqs,
                                   _direction(args.rf_dir, "--rf-dir"), progress=bar.update)
     atomic_write_json(args.out, spec.to_dict())
     png = os.path.splitext(args.out)[0] + ".png"
@@ -191,9 +197,9 @@ def cmd_rf_table(args) -> int:
 
     pair = _load(args)
     lmax = _lmax(args.lmax)
-    b = args.field_uT * 1e-6
-    amp = check_range("--rf-nT", args.rf_nT, 0.0, None, unit="nT") * 1e-9
-    f = check_range("--rf-MHz", args.rf_MHz, 0.0, None, lo_open=True, unit="MHz") * 1e6
+    b = args.field_ut * 1e-6
+    amp = check_range("--rf-nt", args.rf_nt, 0.0, None, unit="nT") * 1e-9
+    f = check_range("--rf-mhz", args.rf_mhz, 0.0, None, lo_open=True, unit="MHz") * 1e6
     ang = check_range("--rf-angle-deg", args.rf_angle_deg, 0.0, 180.0, unit="deg")
     RFField(amp, f).check_against([0.0, 0.0, b])
     from ..response.harmonic import lebedev_grid, lebedev_order_for
@@ -214,6 +220,6 @@ def cmd_rf_table(args) -> int:
                               n_workers=os.cpu_count() or 1)
     table.save(args.out)
     s = table.summary()
-    print(f"wrote {args.out}: RF on ({args.rf_nT:g} nT, {args.rf_MHz:g} MHz, {ang:g} deg to B0), "
+    print(f"wrote {args.out}: RF on ({args.rf_nt:g} nT, {args.rf_mhz:g} MHz, {ang:g} deg to B0), "
           f"anisotropy {s['anisotropy']:.4g}. {NOTE}")
     return 0

@@ -47,7 +47,8 @@ import json
 import os
 from dataclasses import dataclass
 
-from ..errors import ConfigError, MagretinaError
+from ..defaults import DEFAULT_GAIN
+from ..errors import ConfigError, MagretinaError, did_you_mean
 from .schema import REQUIRED, Key, check_passthrough, check_table, check_value
 
 FIELD_MODELS = ("igrf", "dipole", "fixed")
@@ -95,7 +96,7 @@ SCENE = {
     "north_col": Key(float, None, lo=0.0, unit="pixels"),
 }
 RENDER = {
-    "gain": Key(float, 1.0, lo=0.0, hi=1e6),
+    "gain": Key(float, DEFAULT_GAIN, lo=0.0, hi=1e6),
     "outside": Key(float, 0.25, lo=0.0, hi=1.0),
 }
 DISPLAY = {
@@ -233,7 +234,8 @@ def validate(raw: dict, base_dir: str, problems: list) -> dict:
 
     for key in raw:
         if key not in SECTIONS:
-            problems.append(f"{key}: unknown table; allowed: {', '.join(SECTIONS)}")
+            problems.append(f"{key}: unknown table;{did_you_mean(key, SECTIONS)} allowed: "
+                            f"{', '.join(SECTIONS)}")
     g = lambda name: raw.get(name, {})  # noqa: E731
     out = {}
     out["study"] = check_table("study", g("study"), STUDY, problems)

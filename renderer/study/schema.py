@@ -18,6 +18,8 @@ import inspect
 import math
 from dataclasses import dataclass
 
+from ..errors import did_you_mean
+
 REQUIRED = object()
 
 _TYPE_NAMES = {bool: "true/false", int: "an integer", float: "a number", str: "a string",
@@ -122,7 +124,8 @@ def check_table(path, table, schema: dict, problems, *, extra_ok=()) -> dict:
         if key in extra_ok:
             out[key] = value
         elif key not in schema:
-            problems.append(f"{where}: unknown key; allowed: {', '.join(allowed)}")
+            problems.append(f"{where}: unknown key;{did_you_mean(key, allowed)} allowed: "
+                            f"{', '.join(allowed)}")
         elif check_value(where, value, schema[key], problems):
             out[key] = value
     for key, k in schema.items():
@@ -174,8 +177,9 @@ def check_passthrough(path, table, cls, problems, *, reserved=(), exclude=(),
         if key in reserved:
             continue
         if key not in allowed:
-            problems.append(f"{path}.{key}: unknown key for {cls.__name__}; allowed: "
-                            f"{', '.join(sorted(set(allowed) | set(reserved)))}")
+            names = sorted(set(allowed) | set(reserved))
+            problems.append(f"{path}.{key}: unknown key for {cls.__name__};"
+                            f"{did_you_mean(key, names)} allowed: {', '.join(names)}")
         else:
             kw[key] = value
     for key, default in allowed.items():

@@ -1,20 +1,16 @@
 """The ``magretina response`` subcommand: compute, show, presets, errors → exit status 2."""
 
-import argparse
 import os
 
 import numpy as np
 
-from renderer.commands import response as cmd
+from renderer.cli import main
 from renderer.response.spin_table import SpinTable
 
 
 def run(argv):
-    parser = argparse.ArgumentParser(prog="magretina")
-    sub = parser.add_subparsers(dest="command")
-    cmd.register(sub)
-    args = parser.parse_args(argv)
-    return args.func(args)
+    """The real command line, in process (its parser class, aliases and error handling)."""
+    return main(argv)
 
 
 def test_compute_and_show(tmp_path, monkeypatch, capsys):

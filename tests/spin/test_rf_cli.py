@@ -32,8 +32,8 @@ def test_bad_input_exit_status_2(tmp_path, capsys):
     assert main(base + ["--rf-nT", "60000"]) == 2
     assert "weak-perturbation" in capsys.readouterr().err
     assert main(base + ["--rf-nT", "100", "--f-min-MHz", "-1"]) == 2
-    assert "--f-min-MHz" in capsys.readouterr().err
+    assert "--f-min-mhz" in capsys.readouterr().err
     assert main(["rf-table", "fad-trp-n5-n1", "--field-uT", "50", "--rf-nT", "100", "--rf-MHz", "0",
                  "--out", str(tmp_path / "t.npz")]) == 2
-    assert "--rf-MHz" in capsys.readouterr().err
+    assert "--rf-mhz" in capsys.readouterr().err
     assert main(["spin-plan", "no-such-preset", "--field-uT", "50"]) == 2
