@@ -26,6 +26,7 @@ COMMANDS = [
     "report",
     "run",
     "new-study",
+    "presets",
 ]
 
 

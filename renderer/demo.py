@@ -22,8 +22,10 @@ from .errors import MagretinaError
 
 MARKER = ".magretina-demo.json"
 
-#: The invented demo scenario.
-SITE = {"name": "Reedmoor field station (invented)", "lat_deg": 53.25, "lon_deg": 7.90,
+#: The invented demo scenario: a moored platform in the open North Pacific, about
+#: 1800 km from the nearest land (the Hawaiian islands), where no research site exists;
+#: the name is coined.
+SITE = {"name": "Ostravane Shoal buoy station (invented)", "lat_deg": 36.75, "lon_deg": -152.25,
         "alt_km": 0.01, "date": "2026-09-15"}
 HEADINGS_DEG = (0, 45, 90, 135, 180, 225, 270, 315)
 LEGENDRE = (0.70, 0.0, 0.10)

@@ -7,8 +7,8 @@ from . import _common
 
 def register(sub):
     p = sub.add_parser("demo", help="render the built-in demo study into outputs/demo/")
-    p.add_argument("--out", default="outputs/demo", help="output folder (default outputs/demo)")
-    p.add_argument("--width", type=int, default=1024, help="panorama width in pixels (default 1024)")
+    p.add_argument("--out", default="outputs/demo", metavar="DIR", help="output folder")
+    p.add_argument("--width", type=int, default=1024, help="panorama width, pixels")
     p.add_argument("--force", action="store_true", help="write into a non-empty folder of other content")
     _common.add_display_args(p)
     p.set_defaults(func=run)
@@ -22,7 +22,10 @@ def run(a) -> int:
     display, method, seed = _common.display_from_args(a)
     files = run_demo(a.out, width=a.width, force=a.force, display=display, dither=method,
                      dither_seed=seed)
-    print(f"demo: {SITE['name']}, {SITE['lat_deg']} N {SITE['lon_deg']} E, {SITE['date']}")
+    from .field import latlon_text
+
+    print(f"demo: {SITE['name']}, {latlon_text(SITE['lat_deg'], SITE['lon_deg'], 2)}, "
+          f"{SITE['date']} (an invented scenario)")
     print(f"wrote {len(files)} files to {os.path.abspath(a.out)}:")
     for f in files:
         print("  " + f)

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import os
+
 
 def register(sub):
     p = sub.add_parser("new-study", help="write a commented example study file",
@@ -11,11 +13,16 @@ def register(sub):
     p.set_defaults(func=run)
 
 
-def example_text() -> str:
+def example_text(path=None) -> str:
+    """The example study; with ``path``, its header's commands name that file."""
     from importlib import resources
 
-    return (resources.files("renderer.study") / "examples" / "example_study.toml").read_text(
+    text = (resources.files("renderer.study") / "examples" / "example_study.toml").read_text(
         encoding="utf-8")
+    if path is not None:
+        text = text.replace("magretina run example_study.toml",
+                            f"magretina run {os.fspath(path)}")
+    return text
 
 
 def run(a) -> int:
@@ -23,6 +30,6 @@ def run(a) -> int:
     from ._common import refuse_overwrite
 
     refuse_overwrite([a.path], a.force)
-    atomic_write_text(a.path, example_text())
+    atomic_write_text(a.path, example_text(a.path))
     print(f"wrote {a.path}; check it with: magretina run {a.path} --dry-run")
     return 0

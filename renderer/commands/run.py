@@ -41,8 +41,12 @@ def run(a) -> int:
                   max_memory_gb=a.max_memory_gb, force_jobs=a.force_jobs)
     if a.dry_run:
         return 0
-    print(f"study folder {s['out']}: {s['shots']} shots, {s['frames']} frames; rendered "
-          f"{s['frames_rendered']} frames of {s['shots_rendered']} shots in {s['wall_s']:.1f} s "
-          f"({s['executor']}, {s['jobs']} job(s))")
+    if s["shots_rendered"] == 0:
+        print(f"study folder {s['out']}: all {s['frames']} frames ({s['shots']} shots) up to "
+              f"date; nothing to render (tables checked in {s['wall_s']:.1f} s)")
+    else:
+        print(f"study folder {s['out']}: {s['shots']} shots, {s['frames']} frames; rendered "
+              f"{s['frames_rendered']} frames of {s['shots_rendered']} shots in "
+              f"{s['wall_s']:.1f} s ({s['executor']}, {s['jobs']} job(s))")
     print("These are predictions of a model under the study's hypothesis, not measurements.")
     return 0

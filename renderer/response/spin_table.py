@@ -115,8 +115,11 @@ class SpinTable(SphericalHarmonic):
         """Read a table written by :meth:`save`."""
         try:
             arrays, meta = cache.load_npz(path)
-        except (OSError, ValueError) as exc:
-            raise MagretinaError(f"spin table {path}: cannot read ({exc})") from None
+        except OSError as exc:
+            raise MagretinaError(f"spin table {path}: cannot read ({exc.strerror or exc})") from None
+        except Exception:  # numpy's messages (pickles, zip headers) say nothing useful here
+            raise MagretinaError(f"spin table {path}: not a response table; expected a .npz file "
+                                 f"written by 'magretina response compute' or 'spin-plan'") from None
         if meta.get("format") != "magretina-spin-table/1" or "coeffs" not in arrays:
             raise MagretinaError(f"spin table {path}: not a magretina spin table "
                                  f"(format {meta.get('format')!r})")

@@ -305,9 +305,11 @@ def _run(study, out_dir, jobs, executor, scheduler, dry, force, progress, stream
                "shots_rendered": len(shots_todo), "frames_rendered": n_frames_todo,
                "executor": executor if jobs > 1 or executor == "dask" else "inline",
                "jobs": jobs}
+    # no bars when everything is up to date: the command says so in one line
+    quiet = not progress or not shots_todo
     bar_s = tqdm(total=len(plan.shots), initial=len(entries), unit="shot", desc="shots",
-                 disable=not progress, position=0, file=sys.stderr)
-    bar_f = tqdm(total=n_frames_todo, unit="frame", desc="frames", disable=not progress,
+                 disable=quiet, position=0, file=sys.stderr)
+    bar_f = tqdm(total=n_frames_todo, unit="frame", desc="frames", disable=quiet,
                  position=1, file=sys.stderr)
     ex = None
     try:
