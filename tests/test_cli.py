@@ -23,11 +23,12 @@ def test_field_json_keys(capsys):
     rc, out, _ = run(["field", "--lat", "52", "--lon", "9.5", "--date", "2026-06-01", "--json"], capsys)
     assert rc == 0
     d = json.loads(out)
-    for k in ("north_nT", "east_nT", "down_nT", "total_nT", "inclination_deg", "declination_deg",
-              "model", "date"):
+    for k in ("field_north_ut", "field_east_ut", "field_down_ut", "field_total_ut",
+              "inclination_deg", "declination_deg", "model", "date"):
         assert k in d
     assert d["model"] == "igrf" and d["date"] == "2026-06-01"
-    assert np.isclose(d["total_nT"], np.linalg.norm([d["north_nT"], d["east_nT"], d["down_nT"]]))
+    assert np.isclose(d["field_total_ut"],
+                      np.linalg.norm([d["field_north_ut"], d["field_east_ut"], d["field_down_ut"]]))
 
 
 def test_field_dipole_text(capsys):
@@ -86,7 +87,7 @@ def test_bad_scene_and_layout_files(tmp_path, capsys):
     rc, _, err = run(base + ["--scene", str(sq)], capsys)
     assert rc == 2 and "2:1" in err and "square.png" in err
     rc, _, err = run(base + ["--scene", str(junk)], capsys)
-    assert rc == 2 and "cannot be decoded" in err and "junk.png" in err
+    assert rc == 2 and "not a readable image" in err and "junk.png" in err
     rc, _, err = run(base + ["--layout", str(lay)], capsys)
     assert rc == 2 and "retina_radius_mm" in err and "eyes.toml" in err
     rc, _, err = run(base + ["--legendre", "0.7,a"], capsys)

@@ -9,7 +9,7 @@ from . import _common
 
 def register(sub):
     p = sub.add_parser("field", help="print the geomagnetic field vector at a site and date",
-                       description="Field vector in local north-east-down axes (nT) with "
+                       description="Field vector in local north-east-down axes (µT) with "
                                    "inclination and declination.")
     p.add_argument("--lat-deg", type=float, required=True, aliases=["--lat"],
                    help="geodetic latitude, degrees north (-90..90; south negative)")
@@ -50,9 +50,10 @@ def run(a) -> int:
     when = f"{f.date}" + ("" if a.date else " (today; choose another day with --date)")
     print(f"{f.model} at {latlon_text(d['site']['lat_deg'], d['site']['lon_deg'])}, "
           f"{d['site']['alt_km']:g} km, {when}")
-    for key, label in (("north_nT", "north (X)"), ("east_nT", "east (Y)"), ("down_nT", "down (Z)"),
-                       ("horizontal_nT", "horizontal (H)"), ("total_nT", "total (F)")):
-        print(f"  {label:<15} {d[key]:12.1f} nT")
+    for key, label in (("field_north_ut", "north (X)"), ("field_east_ut", "east (Y)"),
+                       ("field_down_ut", "down (Z)"), ("field_horizontal_ut", "horizontal (H)"),
+                       ("field_total_ut", "total (F)")):
+        print(f"  {label:<15} {d[key]:12.4f} µT")
     print(f"  {'inclination (I)':<15} {d['inclination_deg']:12.3f}°")
     print(f"  {'declination (D)':<15} {d['declination_deg']:12.3f}°")
     return 0

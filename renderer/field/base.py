@@ -83,12 +83,12 @@ class FieldVector:
                            source=self.source, extra={**self.extra, **extra})
 
     def as_dict(self) -> dict:
-        """The CLI/JSON view: components in nT, angles in degrees."""
-        n, e, d = (self.ned_T * 1e9).tolist()
+        """The CLI/JSON view: components in µT, angles in degrees (docs/data-dictionary.md)."""
+        n, e, d = (self.ned_T * 1e6).tolist()
         return {
-            "north_nT": n, "east_nT": e, "down_nT": d,
-            "horizontal_nT": self.horizontal_T * 1e9,
-            "total_nT": self.total_T * 1e9,
+            "field_north_ut": n, "field_east_ut": e, "field_down_ut": d,
+            "field_horizontal_ut": self.horizontal_T * 1e6,
+            "field_total_ut": self.total_T * 1e6,
             "inclination_deg": self.inclination_deg,
             "declination_deg": self.declination_deg,
             "model": self.model, "date": self.date, "site": self.site, "source": self.source,

@@ -166,13 +166,13 @@ def axis_cells(plan, shot) -> dict:
 
 def frame_cells(shot, i) -> dict:
     fs = shot.frames
-    return {"t_s": float(fs.t_s[i]), "heading_deg": float(fs.yaw_deg[i]),
+    return {"t_s": float(fs.t_s[i]), "yaw_deg": float(fs.yaw_deg[i]),
             "pitch_deg": float(fs.pitch_deg[i]), "roll_deg": float(fs.roll_deg[i]),
             "lat_deg": float(fs.lat_deg[i]), "lon_deg": float(fs.lon_deg[i]),
             "alt_km": float(fs.alt_km[i]),
-            "field_north_nt": float(fs.b_ned_T[i, 0] * 1e9),
-            "field_east_nt": float(fs.b_ned_T[i, 1] * 1e9),
-            "field_down_nt": float(fs.b_ned_T[i, 2] * 1e9),
+            "field_north_ut": float(fs.b_ned_T[i, 0] * 1e6),
+            "field_east_ut": float(fs.b_ned_T[i, 1] * 1e6),
+            "field_down_ut": float(fs.b_ned_T[i, 2] * 1e6),
             "coil": fs.coil[i], "response": fs.response[i]}
 
 
@@ -290,15 +290,36 @@ def metrics_dataset(plan, entries):
     ds["t_s"] = (dims, t)
     ds["t_s"].attrs["units"] = "s"
     for n in names:
-        for suffix, unit in (("_ut", "uT"), ("_deg", "degree")):
-            if n.endswith(suffix):
-                ds[n].attrs["units"] = unit
+        unit = netcdf_units(n)
+        if unit:
+            ds[n].attrs["units"] = unit
     ds.attrs["title"] = f"magretina study {plan.study.resolved['study']['name']}"
     ds.attrs["caution"] = CAUTION
     ds.attrs["config"] = json.dumps(plan.study.resolved, sort_keys=True, default=str)
     ds.attrs["config_sha256"] = plan.study.config_sha256
     ds.attrs["study_file_sha256"] = plan.study.sha256
     return ds
+
+
+#: Unit word at the end of a name -> the NetCDF ``units`` attribute (UDUNITS-2 symbols,
+#: the CF convention; ``uT`` is UDUNITS' ASCII spelling of µT).  docs/data-dictionary.md.
+NAME_UNITS = (("_ut", "uT"), ("_nt", "nT"), ("_deg", "degree"), ("_km", "km"), ("_ms", "ms"),
+              ("_per_s", "s-1"), ("_s", "s"), ("_mhz", "MHz"), ("_per_rad2", "rad-2"))
+
+
+def netcdf_units(name) -> str | None:
+    """UDUNITS-2 unit of a variable from the unit word its name ends with, or None.
+
+    Per-eye names carry the eye after the unit (``crb_mean_deg_left``), so up to two
+    trailing words are tried off as well.
+    """
+    parts = str(name).split("_")
+    for cut in range(0, min(3, len(parts))):
+        stem = "_".join(parts[:len(parts) - cut])
+        for suffix, unit in NAME_UNITS:
+            if stem.endswith(suffix):
+                return unit
+    return None
 
 
 def netcdf_bytes(ds) -> bytes:

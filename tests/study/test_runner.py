@@ -56,10 +56,10 @@ def test_grid_study_files_manifest_conditions_resume(tmp_path, grid_study):
     header = list(rows[0])
     assert len(set(header)) == len(header)
     assert all(re.fullmatch(r"[a-z][a-z0-9_]*", h) for h in header), header
-    assert {"latitude_deg", "response_shape", "heading_deg", "file"} <= set(header)
+    assert {"latitude_deg", "response_shape", "yaw_deg", "file"} <= set(header)
     assert all(os.path.isfile(os.path.join(out, r["file"])) for r in rows)
     assert {r["response_shape"] for r in rows} == {"p2_plus", "p2_minus"}
-    assert sorted({float(r["heading_deg"]) for r in rows}) == list(np.arange(0.0, 360.0, 30.0))
+    assert sorted({float(r["yaw_deg"]) for r in rows}) == list(np.arange(0.0, 360.0, 30.0))
     side = json.load(open(os.path.join(out, "study.json")))
     assert side["study_file_sha256"] == _sha(grid_study)
     assert side["seeds"]["shot000"] == json.loads(lines[0])["seed"]

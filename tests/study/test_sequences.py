@@ -127,7 +127,7 @@ def test_north_south_route_reevaluates_field(tmp_path, capsys):
                      "--date", "2026-05-20", "--json"]) == 0
         ref = json.loads(capsys.readouterr().out)
         assert inc[k] == pytest.approx(ref["inclination_deg"], abs=1e-9)
-        assert fs.ambient_ned_T[k, 2] * 1e9 == pytest.approx(ref["down_nT"], rel=1e-12)
+        assert fs.ambient_ned_T[k, 2] * 1e6 == pytest.approx(ref["field_down_ut"], rel=1e-12)
 
 
 def test_head_scan_and_sweep_counts(tmp_path):
