@@ -54,8 +54,14 @@ def plot_response(response, path, product="singlet", n=361, title=None):
     ax1 = fig.add_subplot(1, 2, 1, projection="polar")
     th_full = np.concatenate([theta, 2 * np.pi - theta[::-1]])
     ax1.plot(th_full, np.concatenate([s, s[::-1]]), color="C0")
+    # same convention as every polar plot here (0 at the top, clockwise); the radius
+    # spans the signal's range, not 0..max, so the anisotropy is visible
     ax1.set_theta_zero_location("N")
-    ax1.set_title("signal vs θ (polar; 0° = receptor axis)", fontsize=9)
+    ax1.set_theta_direction(-1)
+    lo, hi = response_radius_limits(s)
+    ax1.set_rlim(lo, hi)
+    ax1.set_title(f"signal vs θ (polar; 0° = receptor axis, clockwise;\n"
+                  f"radius from {lo:.4g} to {hi:.4g})", fontsize=9)
     ax2 = fig.add_subplot(1, 2, 2)
     ax2.plot(np.degrees(theta), s, color="C0")
     ax2.set_xlabel("θ, angle between receptor axis and field (degrees)")
@@ -65,6 +71,27 @@ def plot_response(response, path, product="singlet", n=361, title=None):
     ax2.grid(alpha=0.3)
     fig.suptitle(title or f"Receptor response ({CAPTION})", fontsize=10)
     return _save(fig, path)
+
+
+def response_radius_limits(signal, margin=0.1):
+    """Radial limits of a polar response plot: the signal's range with a margin.
+
+    A polar radius from 0 hides a modulation of a few per cent (the curve looks like
+    a circle); the limits span [min − margin·range, max + margin·range] instead.
+    A flat signal gets ±1 % of its value (or ±1 if it is 0) so the circle still shows.
+    """
+    s = np.asarray(signal, float)
+    lo, hi = float(np.nanmin(s)), float(np.nanmax(s))
+    span = hi - lo
+    if span <= 0:
+        pad = abs(hi) * 0.01 or 1.0
+        return lo - pad, hi + pad
+    return lo - margin * span, hi + margin * span
+
+
+def combined_label(n_eyes) -> str:
+    """Legend entry of the curve that combines every eye: "both eyes", "all 3 eyes"."""
+    return {1: "the eye", 2: "both eyes"}.get(int(n_eyes), f"all {int(n_eyes)} eyes")
 
 
 def plot_pattern(field, pose, layout, response, path, width=720, frame="head", product="singlet",
@@ -129,7 +156,7 @@ def plot_precision(fisher_result, path, title=None):
     if not finite.any():
         ax.text(0.5, 0.5, "no heading information (J = 0)", transform=ax.transAxes, ha="center")
     else:
-        ax.plot(psi, np.append(crb, crb[:1]), color="k", label="layout")
+        ax.plot(psi, np.append(crb, crb[:1]), color="k", label=combined_label(len(fr.eye_names)))
         for k, name in enumerate(fr.eye_names):
             ce = fr.crb_eye_deg[:, k]
             if np.isfinite(ce).any():
@@ -161,8 +188,11 @@ def plot_metric_sweep(x, series, path, xlabel="sweep value", ylabel="metric", ti
         if y.shape[0] != len(xs):
             raise MagretinaError(f"plot_metric_sweep: series {label!r} has {y.shape[0]} values "
                                  f"for {len(xs)} x values")
-        ax.plot(pos[order], y[order], marker="o", label=str(label))
+        # categories have no order between them: points, not a line through them
+        ax.plot(pos[order], y[order], marker="o", linestyle="-" if numeric else "none",
+                label=str(label))
     if not numeric:
+        ax.set_xlim(-0.5, len(xs) - 0.5)
         ax.set_xticks(pos)
         ax.set_xticklabels([str(v) for v in xs], rotation=30, ha="right")
     ax.set_xlabel(xlabel)
@@ -170,8 +200,15 @@ def plot_metric_sweep(x, series, path, xlabel="sweep value", ylabel="metric", ti
     ax.grid(alpha=0.3)
     if len(series) > 1:
         ax.legend(fontsize=8)
-    ax.set_title(title or f"{ylabel} vs {xlabel} ({CAPTION})", fontsize=10)
+    ax.set_title(wrap_title(f"{title or f'{ylabel} vs {xlabel}'} ({CAPTION})"), fontsize=10)
     return _save(fig, path)
+
+
+def wrap_title(text, width=60) -> str:
+    """A title broken into lines of at most ``width`` characters, so none is clipped."""
+    import textwrap
+
+    return "\n".join(textwrap.wrap(str(text), width)) or str(text)
 
 
 __all__ = ["plot_response", "plot_pattern", "plot_precision", "plot_metric_sweep", "CAPTION"]

@@ -148,13 +148,47 @@ def _float(v):
         return math.nan
 
 
-def _sweep_plots(study, tmp):
-    """PNG bytes of metric-vs-axis plots: list of (caption, bytes)."""
-    from . import plots
+def _axis_labels(study):
+    """[(name, key, [labels], numeric)] of the sweep axes with two or more values."""
+    out = []
+    for a in study["sidecar"].get("axes", []):
+        labels = [str(x) for x in (a.get("labels") or a.get("values") or [])]
+        if len(set(labels)) < 2:
+            continue  # a constant is not an axis of the results
+        vals = a.get("values") or []
+        numeric = bool(vals) and all(isinstance(v, (int, float)) and not isinstance(v, bool)
+                                     for v in vals)
+        out.append((a.get("name"), a.get("key"), labels, numeric))
+    return out
 
+
+def _shot_conditions(study):
+    """shot_id -> "name = label, ..." of the swept values of that shot (readable)."""
+    from .vocabulary import label
+
+    varied = {n for n, _k, _l, _num in _axis_labels(study)}
+    axes = [a for a in study["sidecar"].get("axes", []) if a.get("name") in varied]
+    out = {}
+    for sh in study["sidecar"].get("shots", []):
+        parts = []
+        for a in axes:
+            v = sh.get("params", {}).get(a.get("name"))
+            vals, labs = a.get("values") or [], a.get("labels") or []
+            lab = next((str(labs[i]) for i, x in enumerate(vals) if x == v and i < len(labs)), str(v))
+            parts.append(f"{label(a.get('name'), unit=False)} {lab}{_unit_of(a.get('name'))}")
+        out[sh.get("shot_id")] = ", ".join(parts)
+    return out
+
+
+def _unit_of(name):
+    from .vocabulary import split
+
+    u = split(name)[1]
+    return "" if not u else ("°" if u == "°" else f" {u}")
+
+
+def _metric_columns(study):
     header, rows = study["metrics_header"], study["metrics_rows"]
-    if not header or not rows:
-        return []
     axes = [a["name"] for a in study["sidecar"].get("axes", []) if a.get("name") in header]
     skip = {"shot_id", "frame", "t_s", "coil", "response", *axes}
     cols = {h: [r[i] if i < len(r) else "" for r in rows] for i, h in enumerate(header)}
@@ -162,27 +196,54 @@ def _sweep_plots(study, tmp):
                and np.isfinite([_float(v) for v in cols[h]]).any()
                and len({v for v in cols[h]}) > 1]
     metrics = [m for m in _PREFERRED if m in metrics] + [m for m in metrics if m not in _PREFERRED]
+    return cols, metrics
+
+
+def _sweep_plots(study, tmp, eyes=(), key_only=None, progress=None):
+    """PNG bytes of metric-vs-axis plots: list of (caption, bytes).
+
+    Only axes with two or more values; categorical axes drawn as points. ``key_only``
+    True: the preferred metrics only (the key figures); False: the others; None: all.
+    """
+    from . import plots
+    from .vocabulary import label
+
+    header, rows = study["metrics_header"], study["metrics_rows"]
+    if not header or not rows:
+        return []
+    cols, metrics = _metric_columns(study)
+    if key_only is True:
+        metrics = [m for m in metrics if m in _PREFERRED]
+    elif key_only is False:
+        metrics = [m for m in metrics if m not in _PREFERRED]
     metrics = metrics[:_MAX_PLOTS]
     out = []
     n = 0
-    for ax in axes or []:
-        xs_raw = cols[ax]
-        labels = list(dict.fromkeys(xs_raw))
-        if len(labels) < 2:
+    for name, _key, _labels, numeric in _axis_labels(study):
+        if name not in cols:
             continue
-        numeric = all(np.isfinite(_float(v)) for v in labels)
-        xs = [_float(v) for v in labels] if numeric else labels
+        xs_raw = cols[name]
+        labels = list(dict.fromkeys(xs_raw))
+        xs = [_float(v) for v in labels] if numeric and all(np.isfinite(_float(v)) for v in labels) \
+            else labels
         for m in metrics:
             y = np.array([_float(v) for v in cols[m]])
-            series = {m: [float(np.nanmean(y[[i for i, v in enumerate(xs_raw) if v == lab]]))
-                          if np.isfinite(y[[i for i, v in enumerate(xs_raw) if v == lab]]).any()
-                          else math.nan for lab in labels]}
+            vals = []
+            for lab in labels:
+                sel = y[[i for i, v in enumerate(xs_raw) if v == lab]]
+                vals.append(float(np.nanmean(sel)) if np.isfinite(sel).any() else math.nan)
             path = os.path.join(tmp, f"sweep_{n}.png")
             n += 1
-            plots.plot_metric_sweep(xs, series, path, xlabel=ax, ylabel=m + " (mean over frames)")
+            plots.plot_metric_sweep(xs, {label(m, eyes): vals}, path, xlabel=label(name),
+                                    ylabel=label(m, eyes), title=label(m, eyes, unit=False))
             with open(path, "rb") as fh:
-                out.append((f"{m} against sweep axis {ax}", fh.read()))
-    # within-shot sequences: metric against frame (or yaw) for the first shot with > 1 frame
+                out.append((f"{label(m, eyes)} against {label(name)}; each point is the mean over "
+                            f"the frames of the shots at that value.", fh.read()))
+            if progress:
+                progress()
+    if key_only is True:
+        return out
+    # within-shot sequences: metric against heading for the first shot with > 1 frame
     frames = np.array([_float(v) for v in cols.get("frame", [])])
     if frames.size and np.nanmax(frames) > 0:
         sid = cols["shot_id"]
@@ -191,15 +252,21 @@ def _sweep_plots(study, tmp):
         xkey = "yaw_deg" if "yaw_deg" in cols and len({cols["yaw_deg"][i] for i in sel}) > 1 \
             else "frame"
         x = [_float(cols[xkey][i]) for i in sel]
-        for m in metrics[:6]:
-            if m == xkey:
-                continue
+        cond = _shot_conditions(study).get(first, "")
+        for m in [m for m in _metric_columns(study)[1] if m != xkey][:6]:
             y = [_float(cols[m][i]) for i in sel]
+            if len({v for v in y}) < 2:
+                continue
             path = os.path.join(tmp, f"seq_{n}.png")
             n += 1
-            plots.plot_metric_sweep(x, {m: y}, path, xlabel=f"{xkey} (shot {first})", ylabel=m)
+            plots.plot_metric_sweep(x, {label(m, eyes): y}, path,
+                                    xlabel=label(xkey) if xkey != "frame" else "frame",
+                                    ylabel=label(m, eyes), title=label(m, eyes, unit=False))
             with open(path, "rb") as fh:
-                out.append((f"{m} against {xkey} within shot {first}", fh.read()))
+                out.append((f"{label(m, eyes)} against {label(xkey)} within one shot ({cond}).",
+                            fh.read()))
+            if progress:
+                progress()
     return out
 
 
@@ -220,55 +287,136 @@ def _model_plots(study, tmp):
         return [], "Model plots left out: no resolved configuration or metrics rows."
     row = dict(zip(header, rows[0]))
     try:
+        from .defaults import DEFAULT_GAIN
         from .study.build import build_layout, build_response
 
         layout = build_layout(cfg["layout"], study["dir"])
         response = build_response(cfg["response"], study["dir"])
         product = cfg["response"].get("product", "singlet")
-        gain = float(cfg.get("render", {}).get("gain", 1.0))
+        gain = float(cfg.get("render", {}).get("gain", DEFAULT_GAIN))
         field = fixed(float(row["field_total_ut"]), float(row["inclination_deg"]),
                       float(row["declination_deg"]))
         pose = Pose(float(row["yaw_deg"]), float(row["pitch_deg"]), float(row["roll_deg"]))
         out = []
-        where = f"shot {row.get('shot_id', '?')}, frame {row.get('frame', '?')}"
+        cond = _shot_conditions(study).get(row.get("shot_id"), "")
+        where = (f"the first condition ({cond}; " if cond else "the first frame (") + (
+            f"field {field.total_T * 1e6:.1f} µT, inclination {field.inclination_deg:.1f}°, "
+            f"heading {pose.yaw_deg:g}°)")
         p = plots.plot_response(response, os.path.join(tmp, "response.png"), product)
-        out.append((f"Receptor response ({product} signal) of {where}", open(p, "rb").read()))
+        out.append((f"Receptor response ({product} signal) against the angle θ between receptor "
+                    f"axis and field, for {where}.", open(p, "rb").read()))
         p = plots.plot_pattern(field, pose, layout, response, os.path.join(tmp, "pattern.png"),
                                width=360, product=product, gain=gain)
-        out.append((f"Modulation pattern with θ contours, head frame, {where}",
-                    open(p, "rb").read()))
-        from .predict import fisher_information, options_to_models
+        out.append((f"Predicted modulation pattern in the head frame with θ contours, for "
+                    f"{where}, gain {gain:g}.", open(p, "rb").read()))
         from .mosaic import build_mosaic
+        from .predict import fisher_information, options_to_models
 
         opts = cfg.get("metrics", {}).get("options", {}).get("prediction", {}) or {}
         spec, counts = options_to_models(opts, gain)
         fr = fisher_information(field, layout, response, build_mosaic(layout, spec), counts,
                                 np.arange(0.0, 360.0, 5.0), pose.pitch_deg, pose.roll_deg, product)
         p = plots.plot_precision(fr, os.path.join(tmp, "precision.png"))
-        out.append((f"Cramér–Rao bound vs heading for the field and pose of {where} (mosaic "
-                    f"{spec.describe()}, counts {counts.describe()})", open(p, "rb").read()))
+        out.append((f"Cramér–Rao bound on heading error against heading (0° at the top, "
+                    f"clockwise) for {where}; {spec.density:g} receptors per "
+                    f"{'deg²' if spec.unit == 'deg2' else 'mm²'}, {counts.flux_per_s:g} "
+                    f"absorptions/s, {counts.integration_s * 1e3:g} ms integration.",
+                    open(p, "rb").read()))
         return out, ""
     except (MagretinaError, KeyError, TypeError, ValueError, ImportError) as exc:
         return [], f"Model plots left out: {type(exc).__name__}: {exc}"
 
 
 _CSS = """
-body{font-family:sans-serif;margin:1.5em;max-width:1400px;color:#222}
+body{font-family:sans-serif;margin:1.5em auto;max-width:1100px;color:#222;line-height:1.4}
 .caution{border:2px solid #b60;background:#fff4e0;padding:.6em 1em;margin:1em 0}
 table{border-collapse:collapse;font-size:12px}
 td,th{border:1px solid #ccc;padding:2px 6px;text-align:right}
 th{background:#eee;position:sticky;top:0}
+td.l,th.l{text-align:left}
 .sheet{display:flex;flex-wrap:wrap;gap:8px}
 .sheet figure{margin:0;width:min-content;font-size:11px;text-align:center}
 .sheet img{display:block;border:1px solid #999}
-.plots img{max-width:100%;border:1px solid #ddd;margin:4px 0}
+.plots figure{margin:1em 0}
+.plots img{max-width:100%;border:1px solid #ddd}
+figcaption{font-size:13px;color:#333}
 pre{background:#f6f6f6;padding:.6em;overflow:auto;max-height:40em;font-size:12px}
 .scroll{max-height:40em;overflow:auto}
 """
 
 
-def build_report(study_dir, out=None, thumb_px=192, max_frames=400, max_rows=2000, force=True):
+def _overview(study, esc):
+    """HTML: what was varied, what was held fixed, how much was rendered."""
+    from .vocabulary import label
+
+    sc = study["sidecar"]
+    cfg = sc.get("resolved_config", {}) or {}
+    shots = sc.get("shots", [])
+    n_frames = sum(int(s.get("frames", 0)) for s in shots)
+    seq = (cfg.get("sequence") or {}).get("kind", "single frame")
+    parts = ["<h2>Overview</h2>"]
+    desc = (cfg.get("study") or {}).get("description")
+    if desc:
+        parts.append(f"<p>{esc(str(desc))}</p>")
+    parts.append(f"<p>{len(shots) or len(study['entries'])} condition(s) (shots), "
+                 f"{len(study['entries'])} finished; {n_frames} frame(s) in all; each shot is a "
+                 f"{esc(str(seq).replace('-', ' '))} sequence.</p>")
+    varied = _axis_labels(study)
+    if varied:
+        parts.append("<p><strong>Varied:</strong></p><ul>")
+        for name, key, labels, numeric in varied:
+            parts.append(f"<li>{esc(label(name))}: {esc(', '.join(labels))} "
+                         f"<small>(study key <code>{esc(str(key))}</code>"
+                         f"{'' if numeric else ', categories'})</small></li>")
+        parts.append("</ul>")
+    else:
+        parts.append("<p>No parameter was varied between shots.</p>")
+    fixed_rows = []
+    site, field = cfg.get("site") or {}, cfg.get("field") or {}
+    keys = {k for _n, k, _l, _num in varied}
+    if site.get("lat_deg") is not None and "site.lat_deg" not in keys:
+        from .commands.field import latlon_text
+
+        fixed_rows.append(("site", f"{site.get('name') or ''} "
+                                   f"{latlon_text(site['lat_deg'], site.get('lon_deg', 0.0), 2)}"))
+    if field:
+        fixed_rows.append(("field model", f"{field.get('model')}"
+                           + (f", {field.get('date')}" if field.get("date") else "")))
+    lay = cfg.get("layout") or {}
+    if lay:
+        fixed_rows.append(("eye layout", str(lay.get("preset") or lay.get("file") or "custom")))
+    resp = cfg.get("response") or {}
+    if resp and not any(k.startswith("response") for k in keys):
+        fixed_rows.append(("response", f"{resp.get('kind')}"
+                           + (f", product {resp.get('product')}" if resp.get("product") else "")))
+    if cfg.get("render"):
+        fixed_rows.append(("modulation gain", f"{cfg['render'].get('gain')}"))
+    if fixed_rows:
+        parts.append("<p><strong>Held fixed:</strong></p><table>")
+        for k, v in fixed_rows:
+            parts.append(f"<tr><th class='l'>{esc(k)}</th><td class='l'>{esc(v.strip())}</td></tr>")
+        parts.append("</table>")
+    return parts
+
+
+def _figures(plot_list, esc):
+    out = ["<div class='plots'>"]
+    for cap, data in plot_list:
+        out.append(f"<figure><img src='{_data_uri_png(data)}' alt='{esc(cap)}'>"
+                   f"<figcaption>{esc(cap)}</figcaption></figure>")
+    out.append("</div>")
+    return out
+
+
+def build_report(study_dir, out=None, thumb_px=192, max_frames=400, max_rows=2000, force=True,
+                 progress=None):
     """Write the HTML report of a finished study; returns its path.
+
+    The page reads as a document: the caution once, an overview of what was varied and
+    what was held fixed, the key figures (the preferred metrics against every axis
+    that varies), the model plots of the first condition, the frames captioned with
+    their condition values, further plots, the metrics table with labelled columns,
+    and the provenance (files, seeds, versions, resolved configuration) last.
 
     Parameters
     ----------
@@ -279,7 +427,11 @@ def build_report(study_dir, out=None, thumb_px=192, max_frames=400, max_rows=200
     max_frames : at most this many thumbnails (the page says when frames are left off)
     max_rows : at most this many rows of the metrics table
     force : overwrite an existing report
+    progress : callable(stage: str, done: int, total: int) or None
+        Called as the report is built (thumbnails, then plots), for a progress bar.
     """
+    from .vocabulary import label
+
     study = read_study(study_dir)
     d = study["dir"]
     out = os.path.join(d, REPORT_NAME) if out is None else os.fspath(out)
@@ -287,68 +439,76 @@ def build_report(study_dir, out=None, thumb_px=192, max_frames=400, max_rows=200
         raise MagretinaError(f"{out} already exists; pass --force to overwrite")
     if not (isinstance(thumb_px, int) and 16 <= thumb_px <= 1024):
         raise MagretinaError(f"thumbnail size = {thumb_px!r}: allowed integers 16..1024 pixels")
+    say = progress or (lambda stage, done, total: None)
     out_dir = os.path.dirname(os.path.abspath(out))
     sc = study["sidecar"]
-    name = (sc.get("resolved_config", {}).get("study", {}) or {}).get("name") or os.path.basename(
-        os.path.abspath(d))
+    cfg = sc.get("resolved_config", {}) or {}
+    name = (cfg.get("study", {}) or {}).get("name") or os.path.basename(os.path.abspath(d))
+    eyes = _eye_names(cfg, d)
     esc = html.escape
     parts = [f"<!DOCTYPE html><html lang='en'><head><meta charset='utf-8'>"
              f"<title>magretina study report: {esc(str(name))}</title><style>{_CSS}</style>"
              f"</head><body>",
              f"<h1>Study report: {esc(str(name))}</h1>",
-             f"<p class='caution'><strong>Caution.</strong> {esc(CAUTION)}"
-             + (f"<br>{esc(str(sc['caution']))}" if sc.get("caution") else "") + "</p>"]
-    # parameters
-    n_shots = len(sc.get("shots", [])) or len(study["entries"])
-    parts.append("<h2>Parameters</h2><table>")
-    for k, v in (("finished shots", f"{len(study['entries'])} of {n_shots}"),
-                 ("study file", sc.get("study_file")), ("study file SHA-256", sc.get("study_file_sha256")),
-                 ("master seed", sc.get("master_seed")), ("git commit", sc.get("git_commit")),
-                 ("package versions", json.dumps(sc.get("package_versions", {}), sort_keys=True))):
-        if v is not None:
-            parts.append(f"<tr><th style='text-align:left'>{esc(k)}</th>"
-                         f"<td style='text-align:left'>{esc(str(v))}</td></tr>")
-    parts.append("</table>")
-    if sc.get("axes"):
-        parts.append("<h3>Sweep axes</h3><table><tr><th>name</th><th>key</th><th>values</th></tr>")
-        for a in sc["axes"]:
-            parts.append(f"<tr><td>{esc(str(a.get('name')))}</td><td>{esc(str(a.get('key')))}</td>"
-                         f"<td style='text-align:left'>{esc(', '.join(map(str, a.get('labels') or a.get('values', []))))}</td></tr>")
-        parts.append("</table>")
-    parts.append("<h3>Resolved configuration</h3><pre>"
-                 + esc(json.dumps(sc.get("resolved_config", sc), indent=2, sort_keys=True,
-                                  default=str)) + "</pre>")
-    # contact sheet
+             f"<p class='caution'><strong>Caution.</strong> {esc(CAUTION)}</p>"]
+    parts += _overview(study, esc)
+    # plots first (the key figures), then frames
     frames, total = _frames(study, max_frames)
-    parts.append(f"<h2>Frames</h2><p>{total} frame file(s)"
-                 + (f"; the first {len(frames)} are shown" if total > len(frames) else "")
-                 + ". Click a thumbnail for the full image.</p><div class='sheet'>")
-    for shot_id, view, frame, rel in frames:
-        data, (w, h) = _thumbnail(os.path.join(d, rel), thumb_px)
-        href = os.path.relpath(os.path.join(d, rel), out_dir).replace(os.sep, "/")
-        cap = f"{shot_id} {view} #{frame}"
-        parts.append(f"<figure><a href='{esc(href)}'><img src='{_data_uri_png(data)}' width='{w}' "
-                     f"height='{h}' alt='{esc(cap)}'></a><figcaption>{esc(cap)}</figcaption></figure>")
-    parts.append("</div>")
-    # plots
+    cols, metrics = _metric_columns(study) if study["metrics_header"] else ({}, [])
+    n_plots = 3 + len(_axis_labels(study)) * min(len(metrics), _MAX_PLOTS) + 6
+    done = [0]
+
+    def tick():
+        done[0] += 1
+        say("plots", done[0], n_plots)
+
     tmp = tempfile.mkdtemp(prefix="magretina-report-")
     try:
+        key = _sweep_plots(study, tmp, eyes, key_only=True, progress=tick)
         model_list, model_note = _model_plots(study, tmp)
-        plot_list = model_list + _sweep_plots(study, tmp)
+        done[0] += 3
+        say("plots", done[0], n_plots)
+        further = _sweep_plots(study, tmp, eyes, key_only=False, progress=tick)
     finally:
         shutil.rmtree(tmp, ignore_errors=True)
-    parts.append("<h2>Plots</h2><div class='plots'>")
+    parts.append("<h2>Key results</h2>")
+    if key:
+        parts += _figures(key, esc)
+    else:
+        parts.append("<p>No key metric (heading precision, ψ/ψ+180° asymmetry) varies across "
+                     "the sweep axes" + ("" if _axis_labels(study) else "; nothing was varied")
+                     + ".</p>")
+    parts.append("<h2>Model of the first condition</h2>")
     if model_note:
         parts.append(f"<p>{esc(model_note)}</p>")
-    if not plot_list:
-        parts.append("<p>No metric varies across the study; nothing to plot.</p>")
-    for cap, data in plot_list:
-        parts.append(f"<figure><img src='{_data_uri_png(data)}' alt='{esc(cap)}'>"
-                     f"<figcaption>{esc(cap)}</figcaption></figure>")
+    parts += _figures(model_list, esc)
+    # contact sheet, captioned with the condition values
+    conds = _shot_conditions(study)
+    yaw = _frame_yaws(d)
+    parts.append(f"<h2>Frames</h2><p>{total} frame file(s)"
+                 + (f"; the first {len(frames)} are shown" if total > len(frames) else "")
+                 + ". Each caption gives the condition; click a thumbnail for the full image.</p>"
+                 "<div class='sheet'>")
+    for i, (shot_id, view, frame, rel) in enumerate(frames):
+        data, (w, h) = _thumbnail(os.path.join(d, rel), thumb_px)
+        href = os.path.relpath(os.path.join(d, rel), out_dir).replace(os.sep, "/")
+        bits = [conds.get(shot_id, "")]
+        if rel in yaw:
+            bits.append(f"heading {yaw[rel]:g}°")
+        if len({f[1] for f in frames}) > 1:
+            bits.append(f"view {view}")
+        cap = "; ".join(b for b in bits if b) or f"frame {frame}"
+        parts.append(f"<figure><a href='{esc(href)}'><img src='{_data_uri_png(data)}' width='{w}' "
+                     f"height='{h}' alt='{esc(cap)}' title='{esc(shot_id)} {esc(str(view))} frame "
+                     f"{esc(str(frame))}'></a><figcaption>{esc(cap)}</figcaption></figure>")
+        say("thumbnails", i + 1, len(frames))
     parts.append("</div>")
     from .orientation.report import html_section  # orientation predictions and analysis, if any
 
     parts.append(html_section(d))
+    if further:
+        parts.append("<h2>Further plots</h2>")
+        parts += _figures(further, esc)
     # metrics table
     header, rows = study["metrics_header"], study["metrics_rows"]
     parts.append("<h2>Metrics</h2>")
@@ -356,15 +516,57 @@ def build_report(study_dir, out=None, thumb_px=192, max_frames=400, max_rows=200
         parts.append("<p>No metrics.csv in the study folder.</p>")
     else:
         parts.append(f"<p>{len(rows)} row(s)" + (f"; the first {max_rows} are shown" if len(rows) > max_rows
-                                                else "") + " (from metrics.csv).</p>")
+                                                else "") + " from metrics.csv; column names and "
+                     "units: docs/data-dictionary.md.</p>")
         parts.append("<div class='scroll'><table><tr>"
-                     + "".join(f"<th>{esc(h)}</th>" for h in header) + "</tr>")
+                     + "".join(f"<th title='{esc(h)}'>{esc(label(h, eyes))}</th>" for h in header)
+                     + "</tr>")
         for r in rows[:max_rows]:
             parts.append("<tr>" + "".join(f"<td>{esc(_fmt(v))}</td>" for v in r) + "</tr>")
         parts.append("</table></div>")
+    # provenance last
+    n_shots = len(sc.get("shots", [])) or len(study["entries"])
+    parts.append("<h2>Provenance</h2><table>")
+    for k, v in (("finished shots", f"{len(study['entries'])} of {n_shots}"),
+                 ("study file", sc.get("study_file")), ("study file SHA-256", sc.get("study_file_sha256")),
+                 ("master seed", sc.get("master_seed")), ("git commit", sc.get("git_commit")),
+                 ("package versions", ", ".join(f"{k2} {v2}" for k2, v2 in
+                                                sorted((sc.get("package_versions") or {}).items())))):
+        if v is not None:
+            parts.append(f"<tr><th class='l'>{esc(k)}</th><td class='l'>{esc(str(v))}</td></tr>")
+    parts.append("</table>")
+    if sc.get("axes"):
+        parts.append("<h3>Sweep axes</h3><table><tr><th class='l'>name</th><th class='l'>key</th>"
+                     "<th class='l'>values</th></tr>")
+        for a in sc["axes"]:
+            parts.append(f"<tr><td class='l'>{esc(str(a.get('name')))}</td><td class='l'>"
+                         f"{esc(str(a.get('key')))}</td><td class='l'>"
+                         f"{esc(', '.join(map(str, a.get('labels') or a.get('values', []))))}</td></tr>")
+        parts.append("</table>")
+    parts.append("<details><summary>Resolved configuration (JSON)</summary><pre>"
+                 + esc(json.dumps(sc.get("resolved_config", sc), indent=2, sort_keys=True,
+                                  default=str)) + "</pre></details>")
     parts.append("<p><small>Written by magretina from the files in this folder; no network "
                  "resources are used.</small></p></body></html>\n")
     return atomic_write_text(out, "".join(parts))
+
+
+def _eye_names(cfg, base_dir):
+    try:
+        from .study.build import build_layout
+
+        return tuple(e.name for e in build_layout(cfg["layout"], base_dir).eyes)
+    except Exception:  # the report still works without eye names (raw suffixes shown)
+        return ()
+
+
+def _frame_yaws(study_dir):
+    """Frame file (relative path) -> head yaw from conditions.csv, if present."""
+    header, rows = _read_csv(os.path.join(study_dir, "conditions.csv"))
+    if "file" not in header or "yaw_deg" not in header:
+        return {}
+    i, j = header.index("file"), header.index("yaw_deg")
+    return {r[i]: _float(r[j]) for r in rows if len(r) > max(i, j) and np.isfinite(_float(r[j]))}
 
 
 def _fmt(v):

@@ -249,16 +249,54 @@ def add_view_args(p, default_width=1024):
                    help="column (pixels) of geographic north in the scene (default: width/2)")
 
 
+def add_view_geometry_args(p):
+    """Options of the perspective and eye-disc views (what a study's [views] table sets)."""
+    g = p.add_argument_group("perspective view (--view perspective)")
+    g.add_argument("--fov-deg", type=float, default=None,
+                   help="horizontal field of view, degrees in (0, 170] (default: 90)")
+    g.add_argument("--height", type=int, default=None,
+                   help="image height, pixels (default: width x 9/16)")
+    g.add_argument("--look-yaw-deg", type=float, default=None,
+                   help="viewing direction, degrees clockwise from north (or from the head's "
+                        "forward axis with --view-frame head) (default: 0)")
+    g.add_argument("--look-pitch-deg", type=float, default=None,
+                   help="viewing elevation, degrees above the horizon (default: 0)")
+    g.add_argument("--view-frame", default=None, choices=("world", "head"),
+                   help="frame the viewing direction is given in (default: world)")
+    g = p.add_argument_group("eye-disc view (--view eye-disc)")
+    g.add_argument("--disc-radius-deg", type=float, default=None,
+                   help="angle from the optic axis at the disc's rim, degrees in (0, 180] "
+                        "(default: the eye's largest half-width)")
+
+
+_PERSPECTIVE = {"fov_deg": "hfov_deg", "height": "height", "look_yaw_deg": "yaw_deg",
+                "look_pitch_deg": "pitch_deg", "view_frame": "frame"}
+
+
 def view_from_args(a):
     from ..views import REGISTRY
 
     if a.view not in REGISTRY:
-        raise MagretinaError(f"--view {a.view!r}: allowed {', '.join(REGISTRY)}")
+        raise MagretinaError(f"--view {a.view!r}: allowed {', '.join(REGISTRY)};"
+                             f"{did_you_mean(a.view, REGISTRY)}".rstrip(";"))
     eye = a.eye
     if eye is not None and eye.isdigit():
         eye = int(eye)
-    if a.view in ("eye-disc", "retina"):
+    persp = {k: getattr(a, k, None) for k in _PERSPECTIVE if getattr(a, k, None) is not None}
+    radius = getattr(a, "disc_radius_deg", None)
+    if persp and a.view != "perspective":
+        name = "--" + next(iter(persp)).replace("_", "-")
+        raise MagretinaError(f"{name} applies to --view perspective, not --view {a.view}")
+    if radius is not None and a.view != "eye-disc":
+        raise MagretinaError(f"--disc-radius-deg applies to --view eye-disc, not --view {a.view}")
+    if a.view == "eye-disc":
+        return REGISTRY[a.view](eye=0 if eye is None else eye, size=a.width, radius_deg=radius)
+    if a.view == "retina":
         return REGISTRY[a.view](eye=0 if eye is None else eye, size=a.width)
+    if a.view == "perspective":
+        kw = {_PERSPECTIVE[k]: v for k, v in persp.items()}
+        kw.setdefault("height", max(2, round(a.width * 9 / 16)))
+        return REGISTRY[a.view](width=a.width, pick=eye, **kw)
     return REGISTRY[a.view](width=a.width, pick=eye)
 
 

@@ -106,6 +106,112 @@ def check_predict(a, n_headings):
     return est.check(a.max_memory_gb)
 
 
+#: Metrics given per eye (``<stem>_<eye>``), printed as one column per eye.
+EYE_STEMS = ("crb_mean_deg", "michelson", "rms", "peak_to_peak", "weber_max", "visible")
+
+
+def _num(v) -> str:
+    if isinstance(v, float):
+        if v == v and abs(v) < 1e15 and v.is_integer():
+            return f"{int(v)}"
+        return f"{v:.4g}"
+    return str(v)
+
+
+def kv_text(d) -> str:
+    """``{'kind': 'legendre', 'coeffs': [0.7, 0, 0.1]}`` as ``kind legendre, coeffs 0.7/0/0.1``."""
+    if not isinstance(d, dict):
+        return str(d)
+    parts = []
+    for k, v in d.items():
+        if isinstance(v, (list, tuple)):
+            v = "/".join(_num(float(x)) if isinstance(x, (int, float)) else str(x) for x in v) \
+                or "none"
+        elif isinstance(v, dict):
+            v = "(" + kv_text(v) + ")"
+        elif isinstance(v, float):
+            v = _num(v)
+        parts.append(f"{str(k).replace('_', ' ')} {v}")
+    return ", ".join(parts)
+
+
+def mosaic_text(d) -> str:
+    unit = {"deg2": "per deg² of visual field", "mm2": "per mm² of retina"}.get(d.get("unit"),
+                                                                               d.get("unit"))
+    pool = d.get("pool_radius_deg") or 0
+    ecc = d.get("eccentricity_deg") or []
+    return (f"{_num(float(d.get('density')))} receptors {unit}, {d.get('method')} placement "
+            f"(seed {d.get('seed')}), " + ("uniform density" if not ecc else
+                                           f"density profile over {len(ecc)} eccentricities")
+            + (f", pooled over {_num(float(pool))}°" if pool else ", no pooling"))
+
+
+def counts_text(d) -> str:
+    noise = d.get("noise")
+    noise = f"{kv_text(noise) if isinstance(noise, dict) else noise} noise"
+    if d.get("floor_counts") is not None:
+        noise = (f"{noise} (floor {_num(float(d['floor_counts']))} counts rms"
+                 + (", with shot noise)" if d.get("shot") else ")"))
+    return (f"{_num(float(d.get('flux_per_s')))} absorptions/s per receptor at luminance 1, "
+            f"integration {_num(float(d.get('integration_s')) * 1e3)} ms, gain "
+            f"{_num(float(d.get('gain')))}, scene luminance {_num(float(d.get('luminance')))}, "
+            f"{noise}")
+
+
+def format_assumptions(field, pose, layout, response, product, spec, counts) -> str:
+    """The configuration a prediction used, one labelled line each (field first)."""
+    from .field import latlon_text
+
+    d = field.as_dict() if hasattr(field, "as_dict") else {}
+    site = d.get("site") or {}
+    where = (f"{d.get('model')} at {latlon_text(site['lat_deg'], site['lon_deg'], 2)}, "
+             f"{d.get('date')}" if site.get("lat_deg") is not None else f"{d.get('model', 'fixed')}")
+    lines = [
+        f"  field        {where}: total {d.get('field_total_ut', float('nan')):.3f} µT, "
+        f"inclination {d.get('inclination_deg', float('nan')):.2f}°, "
+        f"declination {d.get('declination_deg', float('nan')):.2f}°",
+        f"  head pose    heading {pose.yaw_deg:g}° (clockwise from north), "
+        f"pitch {pose.pitch_deg:g}°, roll {pose.roll_deg:g}°",
+        f"  layout       {layout.name} ({len(layout.eyes)} eye(s): "
+        f"{', '.join(e.name for e in layout.eyes)}); {product} product drives vision",
+        f"  response     {kv_text(response.describe())}",
+        f"  mosaic       {mosaic_text(spec.describe())}",
+        f"  counts       {counts_text(counts.describe())}",
+    ]
+    return "assumptions\n" + "\n".join(lines)
+
+
+def format_metrics(metrics, eye_names) -> str:
+    """A two-part table: whole-layout metrics, then one column per eye, with units."""
+    from ..vocabulary import split
+
+    eyes = sorted(eye_names, key=len, reverse=True)
+    per_eye, whole = {}, {}
+    for k, v in metrics.items():
+        stem = next((k[:-len(e) - 1] for e in eyes if k.endswith("_" + e)
+                     and k[:-len(e) - 1] in EYE_STEMS), None)
+        if stem is not None:
+            per_eye.setdefault(stem, {})[k[len(stem) + 1:]] = v
+        else:
+            whole[k] = v
+    rows = [(split(k)[0], _num(v), split(k)[1]) for k, v in whole.items()]
+    w = max(len(r[0]) for r in rows)
+    vw = max(len(r[1]) for r in rows)
+    out = ["prediction (whole layout)"]
+    out += [f"  {lab:<{w}}  {val:>{vw}} {unit}".rstrip() for lab, val, unit in rows]
+    if per_eye:
+        names = list(eye_names)
+        cw = max(8, *(len(n) for n in names))
+        lw = max(len(split(s)[0]) for s in per_eye)
+        out.append("")
+        out.append("per eye" + " " * (lw - 5) + "".join(f"  {n:>{cw}}" for n in names))
+        for stem, vals in per_eye.items():
+            lab, unit, _ = split(stem)
+            cells = "".join(f"  {_num(vals.get(n, float('nan'))):>{cw}}" for n in names)
+            out.append(f"  {lab:<{lw}}{cells} {unit}".rstrip())
+    return "\n".join(out)
+
+
 def register(sub):
     p = sub.add_parser("predict", help="heading information and contrast for one configuration",
                        description="Fisher information about heading, Cramér–Rao bound, "
@@ -196,25 +302,27 @@ def run(a) -> int:
         plot_paths.append(a.noisy)
     if a.json:
         json.dump({"caution": CAUTION, "assumptions": assumptions, "metrics": metrics,
-                   "crb_deg_vs_heading": {"headings_deg": fr.headings_deg.tolist(),
-                                          "crb_deg": fr.crb_deg.tolist()},
+                   "crb_deg_vs_yaw": {"yaw_deg": fr.headings_deg.tolist(),
+                                      "crb_deg": fr.crb_deg.tolist()},
                    "plots": plot_paths, **({"quantum_bound": quantum} if quantum else {})},
                   sys.stdout, indent=2, default=str, allow_nan=True)
         print()
         return 0
     print(f"CAUTION: {CAUTION}")
-    print(f"layout {layout.name}, response {response.describe()}, product {a.product}")
-    print(f"mosaic {spec.describe()}")
-    print(f"counts {counts.describe()}")
-    width = max(len(k) for k in metrics)
-    for k, v in metrics.items():
-        print(f"  {k:<{width}}  {v:.6g}")
+    print(format_assumptions(field, pose, layout, response, a.product, spec, counts))
+    print()
+    print(format_metrics(metrics, [e.name for e in layout.eyes]))
     if quantum:
-        print(f"quantum limit, radical pair {quantum['pair']} at |B| = {quantum['field_uT']:.4g} uT "
+        from ..vocabulary import split
+
+        print()
+        print(f"quantum limit, radical pair {quantum['pair']} at |B| = {quantum['field_uT']:.4g} µT "
               f"(per pair, field direction; not the heading of the array above):")
-        width = max(len(k) for k in quantum["metrics"])
-        for k, v in quantum["metrics"].items():
-            print(f"  {k:<{width}}  {v:.6g}")
+        rows = [(split(k)[0], _num(float(v)) if isinstance(v, (int, float)) else str(v),
+                 split(k)[1]) for k, v in quantum["metrics"].items()]
+        w = max(len(r[0]) for r in rows)
+        for lab, val, unit in rows:
+            print(f"  {lab:<{w}}  {val:>10} {unit}".rstrip())
     for pth in plot_paths:
         print(pth)
     return 0

@@ -20,6 +20,7 @@ def _add(p):
     _common.add_model_args(p)
     _common.add_view_args(p)
     _common.add_display_args(p)
+    _common.add_view_geometry_args(p)
     g = p.add_argument_group("output")
     g.add_argument("--out", metavar="FILE", help="PNG of the composited frame in the display's codes (8-bit sRGB "
                                  "by default)")

@@ -8,6 +8,7 @@ headless Chromium and fails (exit 1) on console errors or undecoded images.
 from __future__ import annotations
 
 import os
+import sys
 
 
 def register(sub):
@@ -23,18 +24,45 @@ def register(sub):
     p.add_argument("--force", action="store_true", help="overwrite an existing report")
     p.add_argument("--check-browser", action="store_true",
                    help="open the report in headless Chromium and check it loads cleanly")
-    p.add_argument("--browser", help="Chromium executable for --check-browser (default: on PATH)")
+    p.add_argument("--browser", metavar="PATH",
+                   help="Chromium executable for --check-browser (default: on PATH)")
+    p.add_argument("--quiet", action="store_true", help="no progress bars")
     p.set_defaults(func=run)
 
 
 def run(a) -> int:
     from ..errors import MagretinaError
-    from ..report import browser_check, build_report
+    from ..report import BROWSER_NAMES, browser_check, build_report, find_browser
 
     if a.max_frames < 0:
         raise MagretinaError(f"--max-frames = {a.max_frames}: must be >= 0")
-    out = build_report(a.study_dir, out=a.out, thumb_px=a.thumb_px, max_frames=a.max_frames,
-                       force=a.force)
+    if a.check_browser and find_browser(a.browser) is None:
+        # say so before spending the time on the report
+        looked = f"--browser {a.browser}" if a.browser else "looked for " + ", ".join(BROWSER_NAMES)
+        raise MagretinaError(f"--check-browser needs headless Chromium and none was found ({looked}); "
+                             f"install it (Debian/Ubuntu: 'apt-get install chromium') or pass "
+                             f"--browser PATH, or leave out --check-browser")
+    bars = {}
+
+    def progress(stage, done, total):
+        # one bar per stage on stderr (plots, then thumbnails); the report takes seconds
+        from tqdm import tqdm
+
+        if stage not in bars:
+            for b in bars.values():
+                b.close()
+            bars[stage] = tqdm(total=total, desc=stage, unit=stage.rstrip("s"), file=sys.stderr,
+                               disable=a.quiet)
+        bar = bars[stage]
+        bar.total = max(bar.total or 0, total)
+        bar.update(done - bar.n)
+
+    try:
+        out = build_report(a.study_dir, out=a.out, thumb_px=a.thumb_px, max_frames=a.max_frames,
+                           force=a.force, progress=progress)
+    finally:
+        for b in bars.values():
+            b.close()
     print(out)
     if a.check_browser:
         res = browser_check(out, browser=a.browser)

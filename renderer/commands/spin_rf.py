@@ -21,6 +21,11 @@ NOTE = ("Model prediction of the radical-pair hypothesis for the stated paramete
         "measurement of any receptor or animal.")
 
 
+#: What ``spin-plan --method`` accepts (the plan's table lists only these).
+PLAN_METHODS = ["auto", "separable", "spectral", "eigenbasis", "liouville", "montecarlo",
+                "semiclassical"]
+
+
 def _pair_args(p):
     p.add_argument("pair", metavar="DEF_OR_PRESET", help="radical-pair definition (TOML) or preset name")
     p.add_argument("--field-ut", type=float, required=True, help="static field magnitude |B0|, µT")
@@ -54,9 +59,7 @@ def register(subparsers):
                                           "per-direction caching. " + NOTE)
     _pair_args(p)
     p.add_argument("--lmax", type=int, default=16, help="highest harmonic degree (even)")
-    p.add_argument("--method", default="auto",
-                   choices=["auto", "separable", "spectral", "eigenbasis", "liouville",
-                            "montecarlo", "semiclassical"],
+    p.add_argument("--method", default="auto", choices=PLAN_METHODS,
                    help="solver ('semiclassical' is the Schulten-Wolynes approximation)")
     p.add_argument("--tol", type=float, default=1e-6, help="error bound of the spectral method")
     p.add_argument("--samples", type=int, default=256, help="Monte Carlo samples per direction")
@@ -127,7 +130,11 @@ def cmd_plan(args) -> int:
               tol=args.tol, n_samples=args.samples)
     print(f"radical pair {args.pair}: Hilbert dimension {pair.dim} (A {pair.a.dim} x B {pair.b.dim}), "
           f"{n_nodes} directions, {n_solve} solved (inversion symmetry)")
-    print(pl.summary())
+    print(pl.summary(methods=PLAN_METHODS))
+    by = {e.method: e.seconds_per_direction for e in pl.estimates}
+    if by.get("montecarlo", 0) > min(by.get(k, float("inf")) for k in ("eigenbasis", "separable")):
+        print("note: Monte Carlo costs dimension² × samples × time steps; it pays off only where "
+              "the exact methods do not fit in memory")
     chosen = pl.method if m == "auto" else m
     if m == "semiclassical":
         print("NOTE: 'semiclassical' is the Schulten-Wolynes APPROXIMATION, not an exact yield")

@@ -162,6 +162,16 @@ def spectral_span(h) -> float:
     return float(hi - lo)
 
 
+def n_time_steps(t_max_s, omega_max_rad_s, omega_dt=OMEGA_DT) -> int:
+    """Number of (even) Simpson intervals on [0, t_max] for ω_max·dt ≤ ``omega_dt``.
+
+    Shared by the propagation and the planner's cost estimate, so both count the
+    same steps.
+    """
+    n = int(math.ceil(t_max_s * omega_max_rad_s / omega_dt))
+    return n + n % 2
+
+
 def _simpson_weights(n_intervals, dt):
     w = np.ones(n_intervals + 1)
     w[1:-1:2] = 4.0
@@ -223,8 +233,7 @@ def _sample_yields(pair, field_T, n_samples, seed, electron, tail_tol, omega_dt,
     equal = pair.equal_rates
     t_max = math.log(1.0 / tail_tol) / kmin
     omega_max = max(1.05 * spectral_span(h), pair.k_s, 1.0)
-    n_int = int(math.ceil(t_max * omega_max / omega_dt))
-    n_int += n_int % 2
+    n_int = n_time_steps(t_max, omega_max, omega_dt)
     dt = t_max / n_int
     gen = h if equal else (h - 0.5j * _decay_operator(pair, za, zb))
     use_dense = n <= DENSE_LIMIT

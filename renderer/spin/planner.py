@@ -68,16 +68,28 @@ class Plan:
     def total_seconds(self) -> float:
         return self.seconds_per_direction * self.n_directions
 
-    def summary(self) -> str:
+    def summary(self, methods=None) -> str:
+        """Chosen method, its cost, and a table of the alternatives.
+
+        ``methods`` limits the table to the methods a caller accepts (the choices of
+        its ``--method``), so it never offers one that is then refused.
+        """
+        ests = [e for e in self.estimates if methods is None or e.method in methods]
         lines = [f"method: {self.method} ({self.reason})",
                  f"estimated: {_fmt_s(self.seconds_per_direction)} per direction, "
                  f"{_fmt_s(self.total_seconds)} for {self.n_directions} directions, "
-                 f"peak memory ~{_fmt_b(self.memory_bytes)}",
-                 "alternatives:"]
-        for e in self.estimates:
-            tag = "" if e.applicable else f"  [not applicable: {e.why_not}]"
-            lines.append(f"  {e.method:<12} {_fmt_s(e.seconds_per_direction):>12}/direction "
-                         f"{_fmt_b(e.memory_bytes):>10}  {e.exact}{tag}")
+                 f"peak memory ~{_fmt_b(self.memory_bytes)}"]
+        if not ests:
+            return "\n".join(lines)
+        rows = [(e.method, _fmt_s(e.seconds_per_direction) + "/direction", _fmt_b(e.memory_bytes),
+                 e.exact + ("" if e.applicable else f" [not applicable: {e.why_not}]"))
+                for e in ests]
+        head = ("method", "time", "memory", "accuracy")
+        w = [max(len(r[i]) for r in rows + [head]) for i in range(3)]
+        lines.append("alternatives:")
+        lines.append(f"  {head[0]:<{w[0]}}  {head[1]:>{w[1]}}  {head[2]:>{w[2]}}  {head[3]}")
+        for r in rows:
+            lines.append(f"  {r[0]:<{w[0]}}  {r[1]:>{w[1]}}  {r[2]:>{w[2]}}  {r[3]}")
         return "\n".join(lines)
 
 
@@ -121,6 +133,41 @@ def spectral_span_estimate(pair: RadicalPair, field_T: float) -> float:
     return max(spans)
 
 
+def montecarlo_seconds(pair: RadicalPair, field_T=50e-6, n_samples=256) -> float:
+    """Per-direction cost of :func:`renderer.spin.montecarlo.singlet_yield_montecarlo`.
+
+    Follows what the code does: the same step count (:func:`n_time_steps` with
+    t_max = ln(10⁹)/k_min and ω_max = 1.05 × twice the span bound of
+    :func:`spectral_span_estimate`); for dimensions up to ``DENSE_LIMIT`` one
+    eigenvalue range (n³), one dense step propagator (≈ 12 n³ products) and then per
+    step one product of the n × n propagator with all samples at once (n²·samples
+    multiply-adds, BLAS); above it a sparse Krylov propagation (≈ 6 nnz per sample
+    and step).
+    """
+    from .montecarlo import DENSE_LIMIT, n_time_steps
+
+    n = pair.dim
+    kmin = min(pair.k_s, pair.k_t) if pair.k_t > 0 else pair.k_s
+    steps = n_time_steps(math.log(1e9) / kmin, 1.05 * 2 * spectral_span_estimate(pair, field_T))
+    if n <= DENSE_LIMIT:
+        setup = EIGH_S_PER_N3 * n**3 + 12 * MATMUL_S_PER_OP * n**3
+        return setup + steps * n * n * n_samples * MATMUL_S_PER_OP
+    nnz = n * (1 + 4 * (len(pair.a.nuclei) + len(pair.b.nuclei)))
+    return steps * 6 * nnz * n_samples * PROP_S_PER_OP
+
+
+def montecarlo_memory(pair: RadicalPair, n_samples=256) -> int:
+    """Peak bytes of the Monte Carlo path: propagator (dense) or sparse H, sample states."""
+    from .montecarlo import DENSE_LIMIT
+
+    n = pair.dim
+    states = 16 * 4 * n * min(n_samples, max(1, 2**27 // (16 * n)))
+    if n <= DENSE_LIMIT:
+        return 16 * 3 * n * n + states
+    nnz = n * (1 + 4 * (len(pair.a.nuclei) + len(pair.b.nuclei)))
+    return 16 * 2 * nnz + 8 * states
+
+
 def estimate(pair: RadicalPair, field_T=50e-6, *, tol=1e-6, n_samples=256, rf_harmonics=2):
     """Per-direction cost of every method for this pair (nothing is allocated).
 
@@ -152,13 +199,8 @@ def estimate(pair: RadicalPair, field_T=50e-6, *, tol=1e-6, n_samples=256, rf_ha
     mem_spec = 16 * 4 * lines + 16 * 24 * int(grid) + 16 * 4 * max(bl_a + bl_b) ** 2
     out.append(MethodEstimate("spectral", t_spec, int(mem_spec), f"bounded error <= {tol:g}",
                               sep_ok, why_sep))
-    # Monte Carlo: steps = t_max · ω_span / 0.25, each a sparse mat-vec per sample
-    kmin = min(pair.k_s, pair.k_t) if pair.k_t > 0 else pair.k_s
-    steps = math.log(1e9) / kmin * 2 * spectral_span_estimate(pair, field_T) / 0.25
-    nnz = n * (1 + 4 * (len(pair.a.nuclei) + len(pair.b.nuclei)))
-    per_step = (n * n if n <= 2048 else 6 * nnz)
-    out.append(MethodEstimate("montecarlo", n_samples * steps * per_step * PROP_S_PER_OP,
-                              int(16 * (nnz * 2 + 8 * n * min(n_samples, 64))),
+    out.append(MethodEstimate("montecarlo", montecarlo_seconds(pair, field_T, n_samples),
+                              int(montecarlo_memory(pair, n_samples)),
                               f"statistical ({n_samples} samples)", True))
     nb = 2 * rf_harmonics + 1
     nf = n * nb

@@ -63,13 +63,20 @@ def test_predict_json_matches_the_library(capsys):
     assert out["metrics"].keys() == ref.keys()
     for k, v in ref.items():
         assert out["metrics"][k] == pytest.approx(v, rel=1e-12), k
-    assert len(out["crb_deg_vs_heading"]["crb_deg"]) == 36
+    assert len(out["crb_deg_vs_yaw"]["crb_deg"]) == 36 == len(out["crb_deg_vs_yaw"]["yaw_deg"])
 
 
 def test_predict_table_and_plots(capsys, tmp_path):
     assert main(ARGS + ["--plots", str(tmp_path), "--noise", "gaussian", "--noise-floor", "3"]) == 0
     text = capsys.readouterr().out
-    assert text.startswith("CAUTION:") and "crb_mean_deg" in text and "gaussian" in text
+    assert text.startswith("CAUTION:") and "gaussian noise (floor 3 counts rms" in text
+    # a readable table with units, the field and inclination used, no raw keys or dicts
+    assert "Cramér–Rao bound, mean over headings" in text and "°" in text
+    assert "total 50.000 µT, inclination 65.00°" in text
+    assert "crb_mean_deg" not in text and "{" not in text
+    for line in text.splitlines():
+        if line.startswith("  Michelson contrast"):
+            assert len(line.split()) == 4  # label words + one value per eye (left, right)
     for n in ("response.png", "pattern.png", "precision.png"):
         _png(tmp_path / n)
     noisy = tmp_path / "noisy.png"

@@ -105,12 +105,71 @@ def test_report_is_self_contained(study_dir):
         assert os.path.isfile(os.path.join(str(study_dir), r))
     assert sum(r.startswith("data:image/png;base64,") for r in refs) >= 6 + 1
     header = open(study_dir / "metrics.csv").readline().strip().split(",")
-    assert all(f"<th>{h}</th>" in text for h in header)
-    assert "crb_mean_deg against sweep axis latitude_deg" in text
-    for caption in ("Receptor response", "Modulation pattern with θ contours",
-                    "Cramér–Rao bound vs heading"):
+    assert all(f"<th title='{h}'>" in text for h in header)
+    assert "Cramér–Rao bound, mean over headings (°) against latitude deg" in text \
+        or "Cramér–Rao bound, mean over headings (°) against latitude" in text
+    for caption in ("Receptor response", "Predicted modulation pattern in the head frame with θ",
+                    "Cramér–Rao bound on heading error against heading"):
         assert caption in text
     assert "Model plots left out" not in text
+
+
+def _captions(text):
+    return re.findall(r"<figcaption>(.*?)</figcaption>", text, flags=re.S)
+
+
+def test_report_reads_as_a_document(study_dir):
+    """Caution once; an overview first; key figures before the frames; thumbnails captioned
+    with the condition values (sweep value and heading); no snake_case or dicts in captions;
+    provenance last."""
+    text = open(build_report(study_dir), encoding="utf-8").read()
+    assert text.count("class='caution'") == 1 and text.count("not measurements") == 1
+    order = [text.index(h) for h in ("<h2>Overview</h2>", "<h2>Key results</h2>",
+                                     "<h2>Model of the first condition</h2>", "<h2>Frames</h2>",
+                                     "<h2>Metrics</h2>", "<h2>Provenance</h2>")]
+    assert order == sorted(order)
+    assert "<strong>Varied:</strong>" in text and "0, 60" in text
+    caps = _captions(text)
+    thumbs = [c for c in caps if c.startswith("latitude ")]
+    assert len(thumbs) == 6
+    assert "latitude 60°; heading 120°" in thumbs
+    for c in caps:
+        assert "{" not in c and not re.search(r"\b[a-z]+_[a-z_]+\b", c), c
+        assert "shot000" not in c
+
+
+CATEGORICAL = STUDY.replace("""[[sweep.axis]]
+key = "site.lat_deg"
+values = [0.0, 60.0]
+name = "latitude_deg"
+""", """[[sweep.axis]]
+key = "response.coeffs"
+values = [[0.7, 0.0, 0.1], [0.7, 0.0, -0.1]]
+labels = ["p2_plus", "p2_minus"]
+name = "response_shape"
+
+[[sweep.axis]]
+key = "site.lon_deg"
+values = [5.0]
+name = "site_lon_deg"
+""")
+
+
+def test_report_plots_only_axes_that_vary(tmp_path, capsys):
+    """A constant axis gets no plot; a categorical axis is listed as categories; the
+    report command shows its progress on stderr."""
+    from renderer.study.runner import run_study
+
+    (tmp_path / "c.toml").write_text(CATEGORICAL)
+    run_study(str(tmp_path / "c.toml"), out_dir=str(tmp_path / "out"), progress=False)
+    assert main(["report", str(tmp_path / "out")]) == 0
+    res = capsys.readouterr()
+    assert "plots" in res.err and "thumbnails" in res.err
+    text = (tmp_path / "out" / "report.html").read_text()
+    caps = _captions(text)
+    assert any("against response shape" in c for c in caps)
+    assert not any("longitude" in c for c in caps)
+    assert "categories" in text
 
 
 def test_prediction_metrics_are_study_outputs(study_dir):

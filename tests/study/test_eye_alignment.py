@@ -195,8 +195,8 @@ alignment = { mode = "tilt", tilt_deg = 190.0 }
         load_study(write(tmp_path, text))
     msg = str(exc.value)
     assert "layout.eye_offsets.left.azimuth_deg = 200.0 is out of range; allowed [-180, 180]" in msg
-    assert "layout.eye_offsets.left.elevaton_deg: unknown key; allowed: azimuth_deg, " \
-           "elevation_deg, torsion_deg" in msg
+    assert "layout.eye_offsets.left.elevaton_deg: unknown key; did you mean 'elevation_deg'? " \
+           "allowed: azimuth_deg, elevation_deg, torsion_deg" in msg
     assert "layout.alignment.mode = 'sideways': allowed normal, chief-ray" in msg
     assert "layout.eyes.right.alignment" in msg and "tilt_deg" in msg and "[0, 180]" in msg
 
