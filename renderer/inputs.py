@@ -250,9 +250,9 @@ def image_size(path, what="image", max_pixels=MAX_IMAGE_PIXELS) -> tuple[int, in
         Image.MAX_IMAGE_PIXELS = None
         with Image.open(p) as im:
             w, h = im.size
-    except (OSError, ValueError, SyntaxError, Image.DecompressionBombError) as exc:
-        raise MagretinaError(f"{_where(what, p)}: cannot be decoded as an image "
-                             f"({type(exc).__name__}: {exc})") from None
+    except (OSError, ValueError, SyntaxError, Image.DecompressionBombError):
+        raise MagretinaError(f"{_where(what, p)}: not a readable image; expected a PNG (8-bit "
+                             f"sRGB or 16-bit linear), JPEG or TIFF file") from None
     finally:
         Image.MAX_IMAGE_PIXELS = old
     if w <= 0 or h <= 0 or w * h > max_pixels:
@@ -290,7 +290,7 @@ def open_image_checked(path, what="image", max_pixels=MAX_IMAGE_PIXELS):
                 Image.MAX_IMAGE_PIXELS = old
     except MemoryError:
         raise MagretinaError(f"{_where(what, p)}: not enough memory to decode it") from None
-    except Exception as exc:  # decoders raise many types for corrupt files
-        raise MagretinaError(f"{_where(what, p)}: cannot be decoded as an image "
-                             f"({type(exc).__name__}: {exc})") from None
+    except Exception:  # decoders raise many types (some with install hints) for non-images
+        raise MagretinaError(f"{_where(what, p)}: not a readable image; expected a PNG (8-bit "
+                             f"sRGB or 16-bit linear), JPEG or TIFF file") from None
     return np.asarray(img)

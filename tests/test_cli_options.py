@@ -206,3 +206,14 @@ def test_one_default_gain_for_render_demo_and_study():
     assert p.parse_args(["render"]).gain == DEFAULT_GAIN
     assert p.parse_args(["predict"]).gain == DEFAULT_GAIN
     assert demo.GAIN == DEFAULT_GAIN and RENDER["gain"].default == DEFAULT_GAIN
+
+
+def test_render_says_the_date_is_today(tmp_path, capsys):
+    today = dt.datetime.now(dt.timezone.utc).date().isoformat()
+    rc, out, err = run(["render", "--lat-deg", "52", "--lon-deg", "9.5", "--width", "32",
+                        "--out", str(tmp_path / "f.png")], capsys)
+    assert rc == 0, err
+    assert f"field for {today} (today" in err
+    rc, out, err = run(["render", "--lat-deg", "52", "--lon-deg", "9.5", "--width", "32",
+                        "--date", "2026-06-01", "--out", str(tmp_path / "g.png")], capsys)
+    assert rc == 0 and "today" not in err

@@ -159,6 +159,15 @@ def field_date(a) -> str:
     return a.date if getattr(a, "date", None) else today_iso()
 
 
+def say_date(a, stream=None):
+    """On stderr: the field is for today, when a site was given without ``--date``."""
+    if getattr(a, "date", None) or getattr(a, "field_ut", None) is not None \
+            or getattr(a, "lat_deg", None) is None:
+        return
+    print(f"note: field for {field_date(a)} (today, UTC); pass --date to choose another day",
+          file=stream or sys.stderr)
+
+
 def field_from_args(a):
     from ..field import at_site, fixed
 

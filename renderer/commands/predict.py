@@ -260,6 +260,7 @@ def run(a) -> int:
     counts = counts_from_args(a)
     check_predict(a, n_headings)
     field = _common.field_from_args(a)
+    _common.say_date(a)
     pose = Pose(a.yaw_deg, a.pitch_deg, a.roll_deg)
     layout = _common.layout_from_args(a)
     response = _common.response_from_args(a)

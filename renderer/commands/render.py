@@ -169,6 +169,7 @@ def run(a) -> int:
     display, method, seed = _common.display_from_args(a)
     grey = _grey(a.grey, display)
     field = _common.field_from_args(a)
+    _common.say_date(a)
     pose = Pose(a.yaw_deg, a.pitch_deg, a.roll_deg)
     layout = _common.layout_from_args(a)
     view = _common.view_from_args(a)

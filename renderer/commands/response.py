@@ -114,7 +114,7 @@ def cmd_compute(args) -> int:
 
 def _print_summary(table):
     s = table.summary()
-    print(f"field |B| = {s['field_uT']:g} uT, l_max = {s['lmax']}, "
+    print(f"field |B| = {s['field_uT']:g} µT, l_max = {s['lmax']}, "
           f"solver '{table.meta.get('method')}', Hilbert dimension {table.meta.get('dim')}")
     print(f"singlet yield: mean {s['mean']:.6f}, min {s['min']:.6f}, max {s['max']:.6f}, "
           f"anisotropy (max - min) {s['anisotropy']:.6f}")
@@ -149,7 +149,7 @@ def cmd_show(args) -> int:
     im = ax1.imshow(lut, extent=[-180, 180, 180, 0], aspect="auto", cmap="viridis")
     ax1.set_xlabel("field azimuth phi in molecular frame (deg, from x towards y)")
     ax1.set_ylabel("field polar angle theta from molecular z (deg)")
-    ax1.set_title(f"singlet yield at |B| = {table.field_T * 1e6:g} uT")
+    ax1.set_title(f"singlet yield at |B| = {table.field_T * 1e6:g} µT")
     fig.colorbar(im, ax=ax1, label="Phi_S")
     th = np.linspace(0, 180, 361)
     ax2.plot(th, axial(np.cos(np.radians(th))))
