@@ -168,7 +168,9 @@ def test_render_config_accepts_old_and_new_keys(tmp_path, capsys):
                    'width = 64\nout = "new.png"\n', "utf-8")
     assert run(["render", "--config", str(old)], capsys)[0] == 0
     assert run(["render", "--config", str(new)], capsys)[0] == 0
-    assert (tmp_path / "old.png").read_bytes() == (tmp_path / "new.png").read_bytes()
+    from renderer.io import read_image_linear
+
+    assert (read_image_linear(tmp_path / "old.png") == read_image_linear(tmp_path / "new.png")).all()
     bad = tmp_path / "bad.toml"
     bad.write_text("yaw_dge = 3\n", "utf-8")
     rc, _, err = run(["render", "--config", str(bad), "--out", str(tmp_path / "b.png")], capsys)

@@ -99,6 +99,10 @@ def test_study_tables_are_in_the_dictionary(study_out):
             header = next(csv.reader(fh))
         check(header, name, axes=["site_lat_deg"])
     assert "field_north_ut" in header and "yaw_deg" in header
+    timing = sorted((study_out / "timing").glob("*.csv"))
+    assert timing
+    with open(timing[0], newline="", encoding="utf-8") as fh:
+        check(next(csv.reader(fh)), "timing table")
 
 
 def test_netcdf_variables_and_units(study_out):

@@ -29,7 +29,8 @@ def register(sub):
     s = p.add_subparsers(dest="orient_command", metavar="ACTION")
     s.required = True
     q = s.add_parser("predict", help="predict each hypothesis' headings in each condition")
-    q.add_argument("study", metavar="STUDY.toml")
+    q.add_argument("study", metavar="STUDY.toml", help="study file (TOML) with the orientation "
+                                                         "conditions and hypotheses")
     q.add_argument("--json", action="store_true", help="print JSON instead of a table")
     q.add_argument("--out", metavar="DIR", help="write orientation.json/.csv and plots here "
                                                 "(e.g. the study's output folder)")
@@ -38,7 +39,8 @@ def register(sub):
     q.add_argument("--no-power", action="store_true", help="skip the animals-needed estimates")
     q.set_defaults(func=run_predict)
     a = s.add_parser("analyse", help="analyse observed headings against the study's hypotheses")
-    a.add_argument("study", metavar="STUDY.toml")
+    a.add_argument("study", metavar="STUDY.toml", help="study file (TOML) with the hypotheses "
+                                                         "to test")
     a.add_argument("headings", metavar="HEADINGS.csv",
                    help="columns heading_deg, condition[, animal, trial, axial]")
     a.add_argument("--json", action="store_true", help="print JSON instead of a table")

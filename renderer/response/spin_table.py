@@ -115,6 +115,8 @@ class SpinTable(SphericalHarmonic):
         """Read a table written by :meth:`save`."""
         try:
             arrays, meta = cache.load_npz(path)
+        except MagretinaError:
+            raise  # already one line naming the file (the input layer's checks)
         except OSError as exc:
             raise MagretinaError(f"spin table {path}: cannot read ({exc.strerror or exc})") from None
         except Exception:  # numpy's messages (pickles, zip headers) say nothing useful here
