@@ -51,7 +51,7 @@ def register(subparsers):
                                            "direction over the full sphere, with a plot")
     q.add_argument("pair", metavar="DEF_OR_PRESET",
                    help="radical-pair definition file (TOML) or preset name (equal rates)")
-    q.add_argument("--field-uT", type=float, required=True, help="field magnitude |B| in microtesla")
+    q.add_argument("--field-ut", type=float, required=True, help="field magnitude |B|, µT")
     q.add_argument("--k-s", type=float, default=None, help="recombination rate k_s = k_t, s^-1 "
                                                             "(default: the file's)")
     q.add_argument("--order", type=int, default=17, help="Lebedev order of the direction grid")
@@ -192,7 +192,7 @@ def cmd_information(args) -> int:
     from ..spin.definition import load_pair, preset_metadata
     from ..spin.quantum import compute_information_table, estimate_information_cost
 
-    field_uT = check_range("--field-uT", args.field_uT, 0.0, 1e9, lo_open=True, unit="uT")
+    field_uT = check_range("--field-ut", args.field_ut, 0.0, 1e9, lo_open=True, unit="µT")
     if args.k_s is not None:
         check_range("--k-s", args.k_s, 0.0, None, lo_open=True, unit="s^-1")
     if lebedev_order_for(max(1, args.order)) != args.order:
