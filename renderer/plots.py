@@ -248,3 +248,31 @@ def plot_information(table, path, title=None):
     fig.suptitle(title or f"Fisher information about the field direction, one radical pair, "
                           f"|B| = {b:g} µT ({CAPTION})", fontsize=10)
     return _save(fig, path)
+
+
+def plot_resonance_spectrum(spec, path):
+    """ΔΦ_S (RF on − off) against RF frequency, with the free-electron Larmor line.
+
+    Parameters
+    ----------
+    spec : renderer.spin.rf.ResonanceSpectrum
+        ``frequency_Hz`` (F,) in Hz, ``delta`` (F,) dimensionless, ``larmor_Hz``, and
+        ``meta["amplitude_T"]`` (peak B₁, tesla) for the title.
+    path : output PNG (written atomically)
+
+    Returns
+    -------
+    str : the path written
+    """
+    fig = _figure((6.4, 4.0))
+    ax = fig.add_subplot(1, 1, 1)
+    ax.plot(spec.frequency_Hz / 1e6, spec.delta, "o-", ms=3)
+    ax.axvline(spec.larmor_Hz / 1e6, color="0.5", ls="--", lw=1,
+               label=f"free-electron Larmor {spec.larmor_Hz / 1e6:.3f} MHz")
+    ax.axhline(0.0, color="0.8", lw=0.8)
+    ax.set_xlabel("RF frequency (MHz)")
+    ax.set_ylabel("ΔΦ_S (RF on − off)")
+    ax.set_title(f"RF resonance spectrum, B1 = {spec.meta['amplitude_T'] * 1e9:.0f} nT "
+                 f"({CAPTION})", fontsize=9)
+    ax.legend(fontsize=8)
+    return _save(fig, path, dpi=120)

@@ -176,7 +176,8 @@ def cmd_spectrum(args) -> int:
     from tqdm import tqdm
 
     from ..io import atomic_write_json
-    from ..spin.rf import plot_resonance_spectrum, resonance_spectrum
+    from ..plots import plot_resonance_spectrum
+    from ..spin.rf import resonance_spectrum
 
     pair = _load(args)
     check_range("--rf-nt", args.rf_nt, 0.0, None, lo_open=True, unit="nT")

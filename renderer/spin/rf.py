@@ -24,6 +24,8 @@ with (the molecular frame in this module).  Only the electron Zeeman terms (and
 nuclear Zeeman terms if a nucleus has γ_n ≠ 0) feel the RF field.  Floquet here works
 in the full pair space, so it is meant for small and medium nuclear sets (the
 planner estimates the cost).  Outputs are model predictions, not measurements.
+This module computes only: the spectrum plot is drawn by :mod:`renderer.plots` and
+study-file RF tables are parsed by :mod:`renderer.study.rfconfig`.
 """
 
 from __future__ import annotations
@@ -37,7 +39,9 @@ import scipy.fft as sfft
 from threadpoolctl import threadpool_limits
 
 from ..errors import MagretinaError
-from .hamiltonian import pair_operators, singlet_projector
+from .hamiltonian import larmor_frequency_Hz, pair_operators, radical_operators, singlet_projector
+from .large import BINNING_BOUND_CONST, _check_separable, _lagrange4, from_singlet_born
+from .solvers import singlet_yield
 from .system import RadicalPair
 
 
@@ -542,9 +546,6 @@ def resonance_spectrum(pair: RadicalPair, field_T, amplitude_T, frequencies_Hz, 
     -------
     ResonanceSpectrum
     """
-    from .hamiltonian import larmor_frequency_Hz
-    from .solvers import singlet_yield
-
     b0 = np.asarray(field_T, dtype=np.float64).reshape(3)
     f = np.asarray(frequencies_Hz, dtype=np.float64).reshape(-1)
     vals = np.empty(len(f))
@@ -559,83 +560,12 @@ def resonance_spectrum(pair: RadicalPair, field_T, amplitude_T, frequencies_Hz, 
     return ResonanceSpectrum(f, vals, static, larmor_frequency_Hz(np.linalg.norm(b0)), meta)
 
 
-def plot_resonance_spectrum(spec: ResonanceSpectrum, path):
-    """Write a PNG plot of ΔΦ_S against frequency (MHz) atomically; returns the path."""
-    import io
-
-    import matplotlib
-    matplotlib.use("Agg")
-    import matplotlib.pyplot as plt
-
-    from ..io import atomic_write_bytes
-
-    fig, ax = plt.subplots(figsize=(6.4, 4.0), dpi=120)
-    ax.plot(spec.frequency_Hz / 1e6, spec.delta, "o-", ms=3)
-    ax.axvline(spec.larmor_Hz / 1e6, color="0.5", ls="--", lw=1,
-               label=f"free-electron Larmor {spec.larmor_Hz / 1e6:.3f} MHz")
-    ax.axhline(0.0, color="0.8", lw=0.8)
-    ax.set_xlabel("RF frequency (MHz)")
-    ax.set_ylabel("ΔΦ_S (RF on − off)")
-    ax.set_title(f"RF resonance spectrum, B1 = {spec.meta['amplitude_T'] * 1e9:.0f} nT "
-                 f"(model prediction)", fontsize=9)
-    ax.legend(fontsize=8)
-    fig.tight_layout()
-    buf = io.BytesIO()
-    fig.savefig(buf, format="png")
-    plt.close(fig)
-    return atomic_write_bytes(path, buf.getvalue())
-
-
-# --------------------------------------------------------------------------------------
-# configuration (study timelines)
-# --------------------------------------------------------------------------------------
-
-_RF_KEYS = {"amplitude_nT", "frequency_MHz", "direction", "phase_deg"}
-_NOISE_KEYS = {"rms_nT", "f_min_MHz", "f_max_MHz", "n_components", "direction", "seed"}
-
-
-def rf_from_config(table: dict, where="rf"):
-    """An RFField or RFNoise from a configuration table in the trade's units.
-
-    Keys: ``amplitude_nT``, ``frequency_MHz``, ``direction`` (3 numbers, in the frame the
-    caller states, e.g. the world NED frame of a study), ``phase_deg`` — or, for noise,
-    ``rms_nT``, ``f_min_MHz``, ``f_max_MHz``, ``n_components``, ``direction``, ``seed``.
-    Unknown keys and bad values raise MagretinaError naming ``where.key``.
-    """
-    from ..errors import ConfigError
-
-    if not isinstance(table, dict):
-        raise MagretinaError(f"{where} must be a table, got {type(table).__name__}")
-    noise = "rms_nT" in table
-    allowed = _NOISE_KEYS if noise else _RF_KEYS
-    unknown = sorted(set(table) - allowed)
-    if unknown:
-        raise ConfigError([f"{where}.{k}: unknown key; allowed {', '.join(sorted(allowed))}"
-                           for k in unknown])
-    try:
-        if noise:
-            return RFNoise(float(table["rms_nT"]) * 1e-9, float(table["f_min_MHz"]) * 1e6,
-                           float(table["f_max_MHz"]) * 1e6, int(table.get("n_components", 16)),
-                           tuple(table.get("direction", (1.0, 0.0, 0.0))), int(table.get("seed", 0)))
-        return RFField(float(table["amplitude_nT"]) * 1e-9, float(table["frequency_MHz"]) * 1e6,
-                       tuple(table.get("direction", (1.0, 0.0, 0.0))),
-                       math.radians(float(table.get("phase_deg", 0.0))))
-    except KeyError as exc:
-        raise MagretinaError(f"{where}.{exc.args[0]} is required") from None
-    except MagretinaError as exc:
-        raise MagretinaError(f"{where}: {exc}") from None
-    except (TypeError, ValueError) as exc:
-        raise MagretinaError(f"{where}: bad value ({exc})") from None
-
-
 # --------------------------------------------------------------------------------------
 # Floquet per radical (equal rates, uncoupled radicals): larger nuclear sets
 # --------------------------------------------------------------------------------------
 
 def _radical_floquet(radical, b0, rf, n_h):
     """Extended-space eigen-decomposition of one radical: (ε, Y (3, F, F), X(j) (3, F, F), Z)."""
-    from .hamiltonian import radical_operators
-
     ops = radical_operators(radical)
     h0 = ops.hamiltonian(b0)
     v = np.tensordot(rf.vector_T, ops.zeeman, axes=([0], [0]))
@@ -681,8 +611,6 @@ def floquet_separable_yield(pair: RadicalPair, field_T, rf: RFField, *, n_harmon
     -------
     float [, dict with "bound", "n_harmonics", "change"]
     """
-    from .large import BINNING_BOUND_CONST, _check_separable, from_singlet_born
-
     _check_separable(pair, "per-radical Floquet")
     rf = check_single_frequency(rf, "floquet")
     b0 = np.asarray(field_T, dtype=np.float64).reshape(3)
@@ -761,8 +689,6 @@ def floquet_separable_yield(pair: RadicalPair, field_T, rf: RFField, *, n_harmon
 
 def _bin_complex(omega, weights, h, lo_index, n):
     """Spread complex line weights (C, L) onto a grid with 4-point Lagrange weights → (C, n)."""
-    from .large import _lagrange4
-
     x = omega / h
     i0 = np.floor(x).astype(np.int64)
     t = x - i0

@@ -203,7 +203,7 @@ def test_rf_response_table_plugs_into_response_interface(tmp_path):
 def test_config_tables_for_study_timelines():
     """Trade units at the edge: nT and MHz (DESIGN conventions); bad keys are named."""
     from renderer.errors import ConfigError
-    from renderer.spin.rf import rf_from_config
+    from renderer.study.rfconfig import rf_from_config
 
     rf = rf_from_config({"amplitude_nT": 480, "frequency_MHz": 1.315, "direction": [0, 0, 1]})
     assert rf.amplitude_T == pytest.approx(480e-9) and rf.frequency_Hz == pytest.approx(1.315e6)
