@@ -241,7 +241,7 @@ def test_folder_with_only_own_temporary_files_is_a_fresh_start(tmp_path, capsys)
     rc, _, err = run(["run", small(tmp_path), "--out", str(out), "--quiet"], capsys)
     assert rc == 0, err
     assert sorted(os.listdir(out)) == ["conditions.csv", "frames", "manifest.jsonl",
-                                       "metrics.csv", "study.json"]
+                                       "metrics.csv", "study.json", "timing"]
 
 
 def test_atomic_writes_sync_the_folder(tmp_path, monkeypatch):
