@@ -25,7 +25,7 @@ def frame_params(field, pose, layout, response, view, gain, product="singlet", d
 
     Parameters
     ----------
-    field : renderer.field.FieldVector (``as_dict()``: NED components in nT, model, date,
+    field : renderer.field.FieldVector (``as_dict()``: NED components in µT, model, date,
         site)
     pose : renderer.pose.Pose (degrees)
     layout : renderer.eye.Layout (name; each eye's alignment ``describe()``)
@@ -40,7 +40,7 @@ def frame_params(field, pose, layout, response, view, gain, product="singlet", d
     f = field.as_dict() if hasattr(field, "as_dict") else dict(field)
     out = {
         "site": f.get("site"), "date": f.get("date"), "field_model": f.get("model"),
-        "field_ned_nT": [f.get("north_nT"), f.get("east_nT"), f.get("down_nT")],
+        "field_ned_ut": [f.get("field_north_ut"), f.get("field_east_ut"), f.get("field_down_ut")],
         "pose_deg": {"yaw": pose.yaw_deg, "pitch": pose.pitch_deg, "roll": pose.roll_deg},
         "layout": layout.name,
         "alignment": {e.name: _describe(e.alignment) for e in layout.eyes},

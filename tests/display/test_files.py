@@ -77,7 +77,8 @@ def test_render_writes_labelled_srgb_and_linear_files(tmp_path, capsys):
     params = json.loads(t["magretina parameters"])
     assert params["pose_deg"]["yaw"] == 30.0 and params["display"]["kind"] == "srgb"
     assert params["site"]["lat_deg"] == 40.0 and len(params["config_sha256"]) == 64
-    for k in ("field_model", "field_ned_nT", "layout", "alignment", "response", "view", "gain",
+    assert all(isinstance(v, float) for v in params["field_ned_ut"])  # µT, docs/data-dictionary.md
+    for k in ("field_model", "field_ned_ut", "layout", "alignment", "response", "view", "gain",
               "dither", "date"):
         assert k in params
     kinds = dict(ch)
@@ -111,6 +112,7 @@ def test_default_pixels_are_plain_srgb_rounding(tmp_path, capsys):
 
     import renderer
     from renderer.composite import to_uint8_srgb
+    from renderer.defaults import DEFAULT_GAIN
     from renderer.eye import load_layout
     from renderer.field import igrf
     from renderer.pose import Pose
@@ -122,8 +124,8 @@ def test_default_pixels_are_plain_srgb_rounding(tmp_path, capsys):
     assert run(["render", *SITE, "--width", "64", "--out", str(out), "--no-sidecar"], capsys)[0] == 0
     assert not (tmp_path / "f.json").exists()
     img = renderer.render(igrf(40.0, 5.0, 0.0, "2026-05-20"), Pose(0.0), load_layout("lateral"),
-                          Legendre([0.7, 0.0, 0.1]), WorldPanorama(64), scene=dusk(1024), gain=1.0,
-                          outside=0.25)
+                          Legendre([0.7, 0.0, 0.1]), WorldPanorama(64), scene=dusk(1024),
+                          gain=DEFAULT_GAIN, outside=0.25)
     np.testing.assert_array_equal(iio.imread(out), to_uint8_srgb(img))
 
 
