@@ -224,27 +224,19 @@ def _file_key(path, value, base_dir, problems):
         problems.append(f"{path} = {value!r}: no such file (looked for {full})")
 
 
-def validate(raw: dict, base_dir: str, problems: list) -> dict:
-    """Check a parsed study mapping; return the resolved configuration.
-
-    Problems are appended to ``problems`` (strings naming the key path); the
-    returned mapping is only meaningful when none were found.
-    """
-    from . import sequences
-
-    for key in raw:
-        if key not in SECTIONS:
-            problems.append(f"{key}: unknown table;{did_you_mean(key, SECTIONS)} allowed: "
-                            f"{', '.join(SECTIONS)}")
-    g = lambda name: raw.get(name, {})  # noqa: E731
-    out = {}
-    out["study"] = check_table("study", g("study"), STUDY, problems)
-    _check_texts(raw, problems)
+def _v_study(raw, base_dir, out, problems):
+    out["study"] = check_table("study", raw.get("study", {}), STUDY, problems)
     name = out["study"].get("name")
     if isinstance(name, str) and (not name.strip() or len(name) > MAX_NAME):
         problems.append(f"study.name: {len(name)} characters; must be 1..{MAX_NAME} (it names "
                         f"the default output folder)")
-    out["field"] = _check_field(g("field"), raw, problems)
+
+
+def _v_field(raw, base_dir, out, problems):
+    out["field"] = _check_field(raw.get("field", {}), raw, problems)
+
+
+def _v_site(raw, base_dir, out, problems):
     needs_site = out["field"].get("model") != "fixed"
     if "site" in raw or needs_site:
         if needs_site and "site" not in raw:
@@ -252,41 +244,180 @@ def validate(raw: dict, base_dir: str, problems: list) -> dict:
                             f"[site] with lat_deg and lon_deg")
             out["site"] = None
         else:
-            out["site"] = check_table("site", g("site"), SITE, problems)
+            out["site"] = check_table("site", raw.get("site", {}), SITE, problems)
     else:
         out["site"] = None
-    out["pose"] = check_table("pose", g("pose"), POSE, problems)
-    out["layout"] = _check_layout(g("layout"), base_dir, problems)
-    out["response"] = check_response("response", raw.get("response", {"kind": "legendre",
-                                                                        "coeffs": [0.7, 0.0, 0.1]}),
-                                     base_dir, problems)
+
+
+def _v_pose(raw, base_dir, out, problems):
+    out["pose"] = check_table("pose", raw.get("pose", {}), POSE, problems)
+
+
+def _v_layout(raw, base_dir, out, problems):
+    out["layout"] = _check_layout(raw.get("layout", {}), base_dir, problems)
+
+
+def _v_response(raw, base_dir, out, problems):
+    out["response"] = check_response("response", raw.get("response", {
+        "kind": "legendre", "coeffs": [0.7, 0.0, 0.1]}), base_dir, problems)
+
+
+def _v_responses(raw, base_dir, out, problems):
     alts = raw.get("responses", {})
     out["responses"] = {}
     if not isinstance(alts, dict):
         problems.append("responses: must be a table of named response tables")
-    else:
-        for name, tbl in alts.items():
-            if name == "default":
-                problems.append("responses.default: reserved for [response]; choose another name")
-                continue
-            out["responses"][name] = check_response(f"responses.{name}", tbl, base_dir, problems)
+        return
+    for name, tbl in alts.items():
+        if name == "default":
+            problems.append("responses.default: reserved for [response]; choose another name")
+            continue
+        out["responses"][name] = check_response(f"responses.{name}", tbl, base_dir, problems)
+
+
+def _v_views(raw, base_dir, out, problems):
     out["views"] = _check_views(raw.get("views", DEFAULT_VIEWS), problems)
-    out["scene"] = check_table("scene", g("scene"), SCENE, problems)
+
+
+def _v_scene(raw, base_dir, out, problems):
+    out["scene"] = check_table("scene", raw.get("scene", {}), SCENE, problems)
     _check_scene(out["scene"], base_dir, problems)
-    out["render"] = check_table("render", g("render"), RENDER, problems)
-    out["display"] = check_table("display", g("display"), DISPLAY, problems)
+
+
+def _v_render(raw, base_dir, out, problems):
+    out["render"] = check_table("render", raw.get("render", {}), RENDER, problems)
+
+
+def _v_display(raw, base_dir, out, problems):
+    out["display"] = check_table("display", raw.get("display", {}), DISPLAY, problems)
     _check_display(out["display"], base_dir, problems)
-    out["sequence"] = sequences.check_sequence(g("sequence"), base_dir, problems)
-    out["timeline"] = sequences.check_timeline(g("timeline"), set(out["responses"]), problems)
-    out["output"] = check_table("output", g("output"), OUTPUT, problems)
+
+
+def _v_sequence(raw, base_dir, out, problems):
+    from . import sequences
+
+    out["sequence"] = sequences.check_sequence(raw.get("sequence", {}), base_dir, problems)
+
+
+def _v_timeline(raw, base_dir, out, problems):
+    from . import sequences
+
+    out["timeline"] = sequences.check_timeline(raw.get("timeline", {}), set(out["responses"]),
+                                               problems)
+
+
+def _v_output(raw, base_dir, out, problems):
+    out["output"] = check_table("output", raw.get("output", {}), OUTPUT, problems)
     _check_output(out, problems)
-    out["metrics"] = _check_metrics(g("metrics"), problems)
-    out["sweep"] = _check_sweep(g("sweep"), problems)
+
+
+def _v_metrics(raw, base_dir, out, problems):
+    out["metrics"] = _check_metrics(raw.get("metrics", {}), problems)
+
+
+def _v_sweep(raw, base_dir, out, problems):
+    out["sweep"] = _check_sweep(raw.get("sweep", {}), problems)
+
+
+def _v_orientation(raw, base_dir, out, problems):
     if "orientation" in raw:  # only when present, so other studies resolve as before
         from .orientation import check_orientation
 
         out["orientation"] = check_orientation(raw["orientation"], set(out["responses"]),
                                                problems)
+    else:
+        out.pop("orientation", None)
+
+
+#: The validation steps in order: (name, raw tables the step reads, function).  A
+#: step only has to be re-run for a sweep value when one of the tables it reads
+#: changed, which is what makes a sweep of many values cheap to check
+#: (:func:`validate` with ``base``).
+STEPS = (
+    ("study", ("study",), _v_study),
+    ("field", ("field",), _v_field),
+    ("site", ("site", "field"), _v_site),
+    ("pose", ("pose",), _v_pose),
+    ("layout", ("layout",), _v_layout),
+    ("response", ("response",), _v_response),
+    ("responses", ("responses",), _v_responses),
+    ("views", ("views",), _v_views),
+    ("scene", ("scene",), _v_scene),
+    ("render", ("render",), _v_render),
+    ("display", ("display",), _v_display),
+    ("sequence", ("sequence",), _v_sequence),
+    ("timeline", ("timeline", "responses"), _v_timeline),
+    ("output", ("output", "display"), _v_output),
+    ("metrics", ("metrics",), _v_metrics),
+    ("sweep", ("sweep",), _v_sweep),
+    ("orientation", ("orientation", "responses"), _v_orientation),
+)
+
+
+def validate(raw: dict, base_dir: str, problems: list, *, base: dict | None = None,
+             changed=None, cache: dict | None = None) -> dict:
+    """Check a parsed study mapping; return the resolved configuration.
+
+    Problems are appended to ``problems`` (strings naming the key path); the
+    returned mapping is only meaningful when none were found.
+
+    Parameters
+    ----------
+    raw : dict
+        The parsed study (TOML tables).
+    base_dir : str
+        Folder relative paths are resolved against.
+    problems : list of str
+        Receives one message per problem.
+    base : dict, optional
+        The resolved configuration of a study that differs from ``raw`` only in the
+        top-level tables named in ``changed`` (a sweep value substituted into it).
+        Only the steps that read a changed table are re-run; every other resolved
+        table is shared with ``base`` (read-only) and its problems are not repeated.
+    changed : iterable of str, optional
+        Top-level tables of ``raw`` that differ from the study ``base`` came from.
+    cache : dict, optional
+        Results of earlier steps keyed by the step and the canonical JSON of the
+        tables it read, so a table value shared by many shots is checked once.
+    """
+    if base is None:
+        changed = None
+        out = {}
+    else:
+        changed = set(changed or ())
+        out = dict(base)
+    for key in raw if changed is None else changed:
+        if key not in SECTIONS and (changed is None or key in raw):
+            problems.append(f"{key}: unknown table;{did_you_mean(key, SECTIONS)} allowed: "
+                            f"{', '.join(SECTIONS)}")
+    if changed is not None:
+        for key in sorted(changed):
+            if key in raw:
+                _check_texts(raw[key], problems, key)
+    for name, reads, fn in STEPS:
+        if changed is not None and not changed.intersection(reads):
+            continue
+        if cache is None:
+            fn(raw, base_dir, out, problems)
+        else:
+            # The raw tables a step reads determine its result (dependent steps read
+            # the resolved tables of those same raw tables).  repr tells TOML values
+            # apart exactly (floats round-trip, 1 != 1.0 != true); a different key
+            # order only costs a second check.
+            ckey = (name, repr([raw.get(t) for t in reads]))
+            hit = cache.get(ckey)
+            if hit is None:
+                part, sub = {t: out[t] for t in reads if t != name and t in out}, []
+                fn(raw, base_dir, part, sub)
+                hit = cache[ckey] = ({k: v for k, v in part.items()
+                                      if k == name or k not in reads}, sub)
+            vals, sub = hit
+            out.update(vals)
+            if name == "orientation" and "orientation" not in vals:
+                out.pop("orientation", None)
+            problems.extend(sub)
+        if name == "study" and changed is None:
+            _check_texts(raw, problems)
     return out
 
 

@@ -7,8 +7,10 @@ whole table such as ``site``) and its values: ``values = [...]``, ``range =
 [start, stop, num]`` (both ends included).  Axes in the same ``group`` are zipped
 (equal lengths, one dimension named after the group's first axis); groups combine
 as a full grid.  ``combine = "zip"`` puts every axis in one group.  Every value is
-checked by substituting it into the study and validating, so a bad value is
-reported with its axis, position and the allowed range, before anything renders.
+checked by substituting it into the study and re-running the validation steps that
+read the swept table (each distinct table value once), so a bad value is reported
+with its axis, position and the allowed range, before anything renders, at a cost
+that grows with the distinct values per table, not with shots x study.
 Per-shot seeds are spawned from ``study.seed`` with ``numpy.random.SeedSequence``.
 :func:`plan` builds every shot's frames and shared resources up front (the last
 validation step).  Nothing here renders.
@@ -49,15 +51,23 @@ def parse_key_path(path: str) -> list:
 
 
 def set_key_path(raw: dict, path, value) -> dict:
-    """A deep copy of ``raw`` with ``value`` at ``path`` (missing tables are created)."""
+    """A copy of ``raw`` with ``value`` at ``path`` (missing tables are created).
+
+    Only the tables and arrays on the path are copied (the rest is shared with
+    ``raw``, which is never modified), so substituting one value costs the depth of
+    the path, not the size of the study.
+    """
     segs = parse_key_path(path) if isinstance(path, str) else path
-    out = copy.deepcopy(raw)
+    if not isinstance(path, str):  # messages name the dotted path
+        path = "".join(f"[{x}]" if isinstance(x, int) else f".{x}" for x in segs).lstrip(".")
+    out = copy.copy(raw)
     node = out
     for i, s in enumerate(segs[:-1]):
         nxt = segs[i + 1]
         if isinstance(s, int):
             if not isinstance(node, list) or s >= len(node):
                 raise MagretinaError(f"key path {path!r}: index [{s}] does not exist")
+            node[s] = copy.copy(node[s])
             node = node[s]
             continue
         if not isinstance(node, dict):
@@ -67,6 +77,8 @@ def set_key_path(raw: dict, path, value) -> dict:
                 raise MagretinaError(f"key path {path!r}: {s!r} is not set, so [{nxt}] does not "
                                      f"exist")
             node[s] = {}
+        else:
+            node[s] = copy.copy(node[s])
         node = node[s]
     last = segs[-1]
     if isinstance(last, int):
@@ -94,6 +106,8 @@ class Axis:
     values: tuple
     labels: tuple
     group: str
+    #: Position of the axis in ``[[sweep.axis]]`` (for messages).
+    index: int = 0
 
     @property
     def scalar(self) -> bool:
@@ -145,8 +159,20 @@ def label_of(v) -> str:
     return json.dumps(v, sort_keys=True, separators=(",", ":"), default=str)
 
 
-def build_axes(study_raw, base_dir, sweep, problems, known=()) -> list[Axis]:
-    """The sweep axes; problems of substituted values not already in ``known``."""
+def build_axes(study_raw, base_dir, sweep, problems, known=(), base=None, cache=None
+               ) -> list[Axis]:
+    """The sweep axes; problems of substituted values not already in ``known``.
+
+    ``base`` (the resolved study) and ``cache`` make each value's check re-run only
+    the validation steps that read the swept table (see :func:`check_axis_values`).
+    """
+    axes = collect_axes(sweep, problems)
+    check_axis_values(study_raw, base_dir, axes, problems, known=known, base=base, cache=cache)
+    return axes
+
+
+def collect_axes(sweep, problems) -> list[Axis]:
+    """The sweep axes with their values, without checking the values against the study."""
     axes = []
     names = set()
     combine = sweep.get("combine", "grid")
@@ -178,19 +204,7 @@ def build_axes(study_raw, base_dir, sweep, problems, known=()) -> list[Axis]:
                 labels = None
         labels = tuple(labels) if labels else tuple(label_of(v) for v in vals)
         group = a.get("group") or ("zip" if combine == "zip" else name)
-        # Check every value in place of the base value.
-        for j, v in enumerate(vals):
-            try:
-                raw2 = set_key_path(study_raw, key, v)
-            except MagretinaError as exc:
-                problems.append(f"{path}.key: {exc}")
-                break
-            sub = []
-            validate(raw2, base_dir, sub)
-            for p in sub:
-                if p not in known:
-                    problems.append(f"{path} (key {key}) value {j} = {labels[j]}: {p}")
-        axes.append(Axis(name, key, tuple(vals), labels, group))
+        axes.append(Axis(name, key, tuple(vals), labels, group, i))
     # zipped groups must agree in length
     groups = {}
     for ax in axes:
@@ -202,6 +216,33 @@ def build_axes(study_raw, base_dir, sweep, problems, known=()) -> list[Axis]:
                             f"{g!r}) have different lengths "
                             f"{', '.join(str(len(m.values)) for m in members)}")
     return axes
+
+
+def check_axis_values(study_raw, base_dir, axes, problems, known=(), base=None, cache=None):
+    """Check every axis value substituted alone into the study.
+
+    With ``base`` (the study's resolved configuration) only the validation steps
+    that read the swept top-level table are re-run, and ``cache`` (a dict shared
+    with :func:`plan`) makes a table value that recurs -- in another axis or shot
+    -- cost one check.  Without ``base`` the whole study is validated per value.
+    """
+    for ax in axes:
+        path = f"sweep.axis[{ax.index}]"
+        segs = parse_key_path(ax.key)
+        for j, v in enumerate(ax.values):
+            try:
+                raw2 = set_key_path(study_raw, segs, v)
+            except MagretinaError as exc:
+                problems.append(f"{path}.key: {exc}")
+                break
+            sub = []
+            if base is None:
+                validate(raw2, base_dir, sub, cache=cache)
+            else:
+                validate(raw2, base_dir, sub, base=base, changed={segs[0]}, cache=cache)
+            for p in sub:
+                if p not in known:
+                    problems.append(f"{path} (key {ax.key}) value {j} = {ax.labels[j]}: {p}")
 
 
 @dataclass(frozen=True)
@@ -254,7 +295,7 @@ def plan(study: Study) -> Plan:
 
     problems = []
     raw = study.raw
-    axes = build_axes(raw, study.base_dir, study.resolved["sweep"], problems)
+    axes = collect_axes(study.resolved["sweep"], problems)
     if problems:
         raise ConfigError(_dedupe(problems), source=study.path)
     groups = []
@@ -269,9 +310,20 @@ def plan(study: Study) -> Plan:
     from ..budget import check_frame_count, frame_limit
 
     n_combos = math.prod(len(g[0].values) for g in groups)
-    # Every shot has at least one frame: refuse before expanding anything.
+    segs = {ax.name: parse_key_path(ax.key) for ax in axes}
+    tables = {sg[0] for sg in segs.values()}
+    # Every shot has at least one frame (and, unless the sequence is swept, as many as
+    # the study's own sequence): refuse before checking or expanding anything.
+    per_shot = 1 if tables & {"sequence", "timeline"} else \
+        max(1, frames_estimate(study.resolved["sequence"]))
     check_frame_count(f"study {study.resolved['study']['name']!r} ({n_combos} shots)",
-                      n_combos * max(1, frames_estimate(study.resolved["sequence"])))
+                      n_combos * per_shot)
+    # Each value alone, then each shot: only the validation steps reading a swept
+    # table are re-run, and each distinct table value is checked once (the cache).
+    cache = {}
+    check_axis_values(raw, study.base_dir, axes, problems, base=study.resolved, cache=cache)
+    if problems:
+        raise ConfigError(_dedupe(problems), source=study.path)
     combos = list(itertools.product(*[range(len(g[0].values)) for g in groups])) or [()]
     seeds = shot_seeds(study.resolved["study"]["seed"], len(combos))
     width = max(3, len(str(len(combos) - 1)))
@@ -282,13 +334,14 @@ def plan(study: Study) -> Plan:
         coords, params, labels = {}, {}, {}
         for g, k in zip(groups, combo):
             for ax in g:
-                r = set_key_path(r, ax.key, ax.values[k])
+                r = set_key_path(r, segs[ax.name], ax.values[k])
                 coords[ax.name] = k
                 params[ax.name] = ax.values[k]
                 labels[ax.name] = ax.labels[k]
             coords[g[0].name] = k
         sub = []
-        cfg = validate(r, study.base_dir, sub) if combo else study.resolved
+        cfg = validate(r, study.base_dir, sub, base=study.resolved, changed=tables,
+                       cache=cache) if combo else study.resolved
         where = f"shot {idx} ({', '.join(f'{k}={v}' for k, v in labels.items())})" if labels \
             else "study"
         problems.extend(f"{where}: {p}" for p in sub)
@@ -381,18 +434,20 @@ def frames_estimate(seq) -> int:
 def _check_outputs(p: Plan, problems):
     from .build import build_view
 
+    shapes = {}  # one view built per distinct view table (shots share most of them)
     for s in p.shots:
         out = s.config["output"]
         for name, vcfg in s.config["views"].items():
-            try:
-                v = build_view(vcfg)
-            except MagretinaError as exc:
-                problems.append(f"views.{name}: {exc}")
+            key = repr(vcfg)
+            if key not in shapes:
+                try:
+                    shapes[key] = build_view(vcfg).shape
+                except (MagretinaError, TypeError) as exc:
+                    shapes[key] = exc
+            if isinstance(shapes[key], Exception):
+                problems.append(f"views.{name}: {shapes[key]}")
                 continue
-            except TypeError as exc:
-                problems.append(f"views.{name}: {exc}")
-                continue
-            H, W = v.shape
+            H, W = shapes[key]
             if out["video"] != "none" and (H % 2 or W % 2):
                 problems.append(f"views.{name}: {W} x {H} pixels; output.video needs even width "
                                 f"and height (frames are never resized)")
