@@ -154,8 +154,13 @@ def resources_key(cfg) -> str:
     return hashlib.sha256(canonical_json(resources_config(cfg)).encode()).hexdigest()[:16]
 
 
-def build_resources(cfg, base_dir) -> Resources:
-    """Build (and precompute) the layout, responses, views and scene of a shot."""
+def build_resources(cfg, base_dir, precompute=True) -> Resources:
+    """Build (and precompute) the layout, responses, views and scene of a shot.
+
+    ``precompute=False`` (a dry run) makes every check the run makes -- responses
+    and their mean signal, views and their eyes, the scene file -- but keeps the
+    views bare (no direction tables) and builds no metric grids.
+    """
     from ..views import HeadPanorama
 
     layout = build_layout(cfg["layout"], base_dir)
@@ -178,7 +183,7 @@ def build_resources(cfg, base_dir) -> Resources:
             pick = getattr(view, "pick", None)
             if pick is not None:
                 layout.eye_index(pick)
-        views[name] = CachedView(view, layout)
+        views[name] = CachedView(view, layout) if precompute else view
     for name, view in views.items():
         pick = getattr(view, "pick", None)
         if pick is not None:
@@ -187,6 +192,8 @@ def build_resources(cfg, base_dir) -> Resources:
             except MagretinaError as exc:
                 raise MagretinaError(f"views.{name}: {exc}") from None
     scene = build_scene(cfg["scene"], views, base_dir)
+    if not precompute:
+        return Resources(resources_key(cfg), layout, responses, products, views, scene, {})
     gw = int(cfg["metrics"]["grid_width"])
     metric_views = {e.name: CachedView(HeadPanorama(gw, pick=i), layout)
                     for i, e in enumerate(layout.eyes)}

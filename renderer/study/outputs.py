@@ -237,6 +237,40 @@ def claim_folder(out_dir, config_sha, force) -> dict:
     except OSError as exc:
         raise MagretinaError(f"--out {out_dir}: cannot create the folder "
                              f"({exc.strerror or exc})") from None
+    verdict = folder_verdict(out_dir, config_sha, force)
+    if verdict == "resume":
+        remove_stale_temps(out_dir)
+        return read_manifest(out_dir)
+    if verdict == "replace":
+        for entry in read_manifest(out_dir).values():
+            for rec in entry.get("files", []):
+                p = os.path.join(out_dir, rec["path"])
+                if os.path.isfile(p):
+                    os.remove(p)
+        for name in (MANIFEST, STUDY_JSON):
+            p = os.path.join(out_dir, name)
+            if os.path.exists(p):
+                os.remove(p)
+    remove_stale_temps(out_dir)
+    return {}
+
+
+def folder_verdict(out_dir, config_sha, force) -> str:
+    """What :func:`claim_folder` would do with ``out_dir``, changing nothing.
+
+    Returns ``"resume"`` (the same study), ``"replace"`` (another study, ``force``)
+    or ``"fresh"`` (absent, empty, or only our own temporary files); raises
+    MagretinaError where the run would refuse, so a dry run refuses too.
+    """
+    if not os.path.isdir(out_dir):
+        # The nearest existing ancestor must be a folder we may write in.
+        parent = os.path.abspath(out_dir)
+        while not os.path.exists(parent):
+            parent = os.path.dirname(parent)
+        if not os.path.isdir(parent) or not os.access(parent, os.W_OK | os.X_OK):
+            raise MagretinaError(f"--out {out_dir}: cannot create the folder ({parent} is not "
+                                 f"a writable folder)")
+        return "fresh"
     sj = os.path.join(out_dir, STUDY_JSON)
     # A folder holding only our own temporary files (a run killed while writing its
     # first file) is a fresh start.
@@ -249,28 +283,16 @@ def claim_folder(out_dir, config_sha, force) -> dict:
         except (OSError, ValueError):
             old_sha = None
         if old_sha == config_sha:
-            remove_stale_temps(out_dir)
-            return read_manifest(out_dir)
+            return "resume"
         if not force:
             raise MagretinaError(f"{out_dir} holds another study (study.json config_sha256 "
                                  f"{str(old_sha)[:12]}..., this one {config_sha[:12]}...); choose "
                                  f"another --out or pass --force to replace it")
-        for entry in read_manifest(out_dir).values():
-            for rec in entry.get("files", []):
-                p = os.path.join(out_dir, rec["path"])
-                if os.path.isfile(p):
-                    os.remove(p)
-        for name in (MANIFEST, STUDY_JSON):
-            p = os.path.join(out_dir, name)
-            if os.path.exists(p):
-                os.remove(p)
-        remove_stale_temps(out_dir)
-        return {}
+        return "replace"
     if entries and not force:
         raise MagretinaError(f"{out_dir} is not empty and holds no study (no {STUDY_JSON}); "
                              f"choose another --out or pass --force")
-    remove_stale_temps(out_dir)
-    return {}
+    return "fresh"
 
 
 def package_versions() -> dict:

@@ -233,17 +233,20 @@ def _run(study, out_dir, jobs, executor, scheduler, dry, force, progress, stream
 
         out_dir = os.path.join("outputs", snake(study.resolved["study"]["name"]))
     est = estimate(plan, jobs).check(max_memory_gb)
-    if dry:
-        return dry_run(plan, out_dir, stream, est=est)
-
+    # A dry run makes every check the run makes before its first frame (resources,
+    # the output folder), only without precomputing or writing anything.
     resources, problems = {}, []
     for key, cfg in plan.resource_configs.items():
         try:
-            resources[key] = build_resources(cfg, study.base_dir)
+            resources[key] = build_resources(cfg, study.base_dir, precompute=not dry)
         except (MagretinaError, TypeError, ValueError) as exc:
             problems.append(str(exc))
     if problems:
         raise ConfigError(sorted(set(problems)), source=study.path)
+    if dry:
+        resources.clear()
+        outputs.folder_verdict(out_dir, study.config_sha256, force)
+        return dry_run(plan, out_dir, stream, est=est)
 
     old = outputs.claim_folder(out_dir, study.config_sha256, force)
     sidecar = outputs.study_sidecar(plan, encodings_of(study.resolved))
