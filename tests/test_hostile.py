@@ -223,6 +223,28 @@ def test_zero_mean_response_is_refused_before_any_frame(tmp_path, capsys):
              str(tmp_path / "o.png")], capsys, "signal is 0")
 
 
+def test_dry_run_refuses_what_the_run_refuses(tmp_path, capsys):
+    """A dry run makes the run's own pre-frame checks (responses and their mean signal,
+    the scene file, the output folder), so it refuses the same studies with the same
+    message, and writes nothing."""
+    s = small(tmp_path, coeffs="[0.0]")
+    out = tmp_path / "o"
+    dry = refused(["run", s, "--out", str(out), "--dry-run"], capsys, "signal is 0")
+    real = refused(["run", s, "--out", str(out), "--quiet"], capsys, "signal is 0")
+    assert dry == real
+    assert not out.exists() or not (out / "frames").exists()
+    # A scene whose header is fine but whose 2:1 check fails, and a folder of another kind.
+    png_header_only(tmp_path / "scene.png", 64, 64)
+    s2 = small(tmp_path, extra='\n[scene]\nkind = "file"\npath = "scene.png"\n')
+    refused(["run", s2, "--out", str(tmp_path / "o2"), "--dry-run"], capsys, "2:1")
+    busy = tmp_path / "busy"
+    busy.mkdir()
+    (busy / "notes.txt").write_text("keep")
+    refused(["run", small(tmp_path), "--out", str(busy), "--dry-run"], capsys, "holds no study")
+    assert os.listdir(busy) == ["notes.txt"]
+    assert not (tmp_path / "o2").exists()
+
+
 def test_response_compute_refuses_to_overwrite(tmp_path, capsys):
     t = tmp_path / "t.npz"
     t.write_bytes(b"precious")
