@@ -16,6 +16,7 @@ import os
 import numpy as np
 
 from ..errors import MagretinaError, check_range
+from . import _common
 
 NOTE = ("Model prediction of the radical-pair hypothesis for the stated parameters; not a "
         "measurement of any receptor or animal.")
@@ -40,6 +41,42 @@ def _load(args):
     if args.k_t is not None and args.k_s is None:
         raise MagretinaError("--k-t needs --k-s as well")
     return load_pair(args.pair, k_s=args.k_s, k_t=args.k_t)
+
+
+def _check_budget(what, method, per_process_bytes, processes, args):
+    """Refuse (with the figure and the limit) before a spin run allocates more than the
+    shared limit of :mod:`renderer.budget`: ``per_process_bytes`` for each of
+    ``processes`` workers."""
+    from .. import budget
+
+    est = budget.Estimate(what, processes=processes)
+    est.add(f"'{method}' solver per direction", per_process_bytes)
+    return est.check(getattr(args, "max_memory_gb", None), check_frames=False)
+
+
+def _memory_limit(args, processes):
+    """Bytes one solver call may use: the spin ceiling and this command's share of the
+    shared limit (so 'auto' picks a method that fits both)."""
+    from .. import budget
+    from ..spin.system import memory_limit_bytes
+
+    share = budget.memory_limit_bytes(getattr(args, "max_memory_gb", None))
+    return min(memory_limit_bytes(), share // (processes + (1 if processes > 1 else 0)))
+
+
+def _plan_within(args, processes, *a, **kw):
+    """``renderer.spin.planner.plan`` within this command's memory share; a refusal says
+    how to raise the limit."""
+    from .. import budget
+    from ..spin.planner import plan
+
+    try:
+        return plan(*a, memory_limit=_memory_limit(args, processes), **kw)
+    except MagretinaError as exc:
+        total = budget.memory_limit_bytes(getattr(args, "max_memory_gb", None))
+        raise MagretinaError(f"{exc} (the limit is the spin ceiling or this command's share "
+                             f"of {budget.fmt_bytes(total)} over {processes} process(es); raise "
+                             f"it with {budget.MEMORY_ENV} or --max-memory-gb)") from None
 
 
 def _direction(text, name):
@@ -99,6 +136,8 @@ def register(subparsers):
                    help="folder for per-direction results, so an interrupted run resumes "
                         "(default: none, no resume)")
     t.set_defaults(func=cmd_rf_table)
+    for q in (p, s, t):
+        _common.add_budget_args(q)
     return p
 
 
@@ -126,8 +165,12 @@ def cmd_plan(args) -> int:
     n_nodes = len(lebedev_grid(lebedev_order_for(2 * lmax + 5))[0])
     n_solve = (n_nodes + 1) // 2
     m = args.method
-    pl = plan(pair, n_solve, field_T=b, method="auto" if m in ("auto", "semiclassical") else m,
-              tol=args.tol, n_samples=args.samples)
+    # Spectral and semiclassical runs solve directions in parallel, one process each.
+    procs = (os.cpu_count() or 1) if args.out is not None else 1
+    kw = dict(field_T=b, method="auto" if m in ("auto", "semiclassical") else m, tol=args.tol,
+              n_samples=args.samples)
+    pl = _plan_within(args, procs, pair, n_solve, **kw) if args.out is not None else \
+        plan(pair, n_solve, **kw)
     print(f"radical pair {args.pair}: Hilbert dimension {pair.dim} (A {pair.a.dim} x B {pair.b.dim}), "
           f"{n_nodes} directions, {n_solve} solved (inversion symmetry)")
     print(pl.summary(methods=PLAN_METHODS))
@@ -162,6 +205,8 @@ def cmd_plan(args) -> int:
     # the spectral and semiclassical paths run single-threaded BLAS per direction, so
     # directions go in parallel; the others parallelise internally
     workers = (os.cpu_count() or 1) if chosen in ("spectral", "semiclassical") else 1
+    _check_budget("spin-plan", chosen, {e.method: e for e in pl.estimates}.get(
+        chosen, pl).memory_bytes, workers, args)
     with _bar(n_solve, chosen) as bar:
         table = compute_table(fn, b, params, lmax=lmax, run_dir=args.run_dir, progress=bar.update,
                               meta={"pair_input": os.fspath(args.pair)}, n_workers=workers)
@@ -186,10 +231,20 @@ def cmd_spectrum(args) -> int:
     if not 2 <= args.points <= 10000:
         raise MagretinaError(f"--points = {args.points} is out of range; allowed [2, 10000]")
     b0 = args.field_ut * 1e-6 * _direction(args.field_dir, "--field-dir")
+    rf_dir = _direction(args.rf_dir, "--rf-dir")
+    _common.check_out_file("--out", args.out)
+    from ..spin.planner import estimate
+
+    # The Floquet variant the spectrum uses (renderer.spin.rf.rf_singlet_yield 'auto'),
+    # estimated before anything is allocated.
+    sep = pair.equal_rates and not pair.coupled
+    method = "floquet-separable" if (sep and pair.dim > 256) else "floquet"
+    need = {e.method: e for e in estimate(pair, args.field_ut * 1e-6)}[method].memory_bytes
+    _check_budget("rf-spectrum", method, need, 1, args)
     freqs = np.linspace(lo, hi, args.points) * 1e6
     with tqdm(total=len(freqs), unit="freq", desc="RF spectrum") as bar:
-        spec = resonance_spectrum(pair, b0, args.rf_nt * 1e-9, freqs,
-                                  _direction(args.rf_dir, "--rf-dir"), progress=bar.update)
+        spec = resonance_spectrum(pair, b0, args.rf_nt * 1e-9, freqs, rf_dir,
+                                  progress=bar.update)
     atomic_write_json(args.out, spec.to_dict())
     png = os.path.splitext(args.out)[0] + ".png"
     plot_resonance_spectrum(spec, png)
@@ -214,7 +269,9 @@ def cmd_rf_table(args) -> int:
 
     n_solve = (len(lebedev_grid(lebedev_order_for(2 * lmax + 5))[0]) + 1) // 2
     n_psi = 1 if ang % 180 == 0 else 4
-    pl = plan(pair, n_solve * n_psi, field_T=b, rf=True)
+    workers = os.cpu_count() or 1
+    pl = _plan_within(args, workers, pair, n_solve * n_psi, field_T=b, rf=True)
+    _check_budget("rf-table", pl.method, pl.memory_bytes, workers, args)
     print(pl.summary())
 
     def fn(bi):
@@ -225,7 +282,7 @@ def cmd_rf_table(args) -> int:
     with _bar(n_solve, "RF table") as bar:
         table = compute_table(fn, b, params, lmax=lmax, run_dir=args.run_dir, progress=bar.update,
                               meta={"pair_input": os.fspath(args.pair), "rf": True},
-                              n_workers=os.cpu_count() or 1)
+                              n_workers=workers)
     table.save(args.out)
     s = table.summary()
     print(f"wrote {args.out}: RF on ({args.rf_nt:g} nT, {args.rf_mhz:g} MHz, {ang:g} deg to B0), "
