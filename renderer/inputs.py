@@ -63,7 +63,11 @@ def read_bytes(path, what="file", max_bytes=MAX_TEXT_BYTES) -> bytes:
                              f"bytes are read")
     try:
         with open(p, "rb") as fh:
-            data = fh.read(max_bytes + 1)
+            # read(n) allocates n bytes up front: ask for the stat size (plus one byte
+            # to notice growth), not the limit, so a small file costs a small buffer.
+            data = fh.read(min(st.st_size, max_bytes) + 1)
+            if len(data) > st.st_size:  # grew since the stat: read on, up to the limit
+                data += fh.read(max_bytes + 1 - len(data))
     except OSError as exc:
         raise MagretinaError(f"{_where(what, p)}: cannot read ({exc.strerror or exc})") from None
     if len(data) > max_bytes:  # grew while we looked
