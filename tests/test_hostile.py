@@ -245,6 +245,34 @@ def test_dry_run_refuses_what_the_run_refuses(tmp_path, capsys):
     assert not (tmp_path / "o2").exists()
 
 
+@pytest.mark.parametrize("argv", [
+    ["rf-spectrum", "toy-axial-n", "--field-ut", "50", "--rf-nt", "100", "--out", "s.json"],
+    ["rf-table", "toy-axial-n", "--field-ut", "50", "--rf-nt", "100", "--rf-mhz", "1.4",
+     "--out", "t.npz"],
+    ["spin-plan", "toy-axial-n", "--field-ut", "50", "--out", "p.npz"],
+])
+def test_spin_commands_refuse_beyond_the_memory_limit(tmp_path, capsys, argv):
+    """The spin commands check the solver's memory estimate against the shared limit
+    (renderer.budget) before solving: with a limit of 10 kB even the 12-dimensional toy
+    pair is refused, naming the limit and how to raise it, and nothing is written."""
+    argv = [str(tmp_path / a) if a.endswith((".json", ".npz")) else a for a in argv]
+    # Modules imported first (their import is not an allocation of the refusal).
+    import renderer.spin.definition  # noqa: F401
+    import renderer.spin.planner  # noqa: F401
+    import renderer.spin.rf  # noqa: F401
+    from renderer.spin.definition import load_pair
+
+    load_pair("toy-axial-n")
+    tracemalloc.start()
+    try:
+        refused(argv + ["--max-memory-gb", "0.00001"], capsys, "10 kB", "--max-memory-gb")
+        peak = tracemalloc.get_traced_memory()[1]
+    finally:
+        tracemalloc.stop()
+    assert peak < 64 * 2**20
+    assert not os.listdir(tmp_path)
+
+
 def test_response_compute_refuses_to_overwrite(tmp_path, capsys):
     t = tmp_path / "t.npz"
     t.write_bytes(b"precious")
