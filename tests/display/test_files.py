@@ -121,7 +121,8 @@ def test_default_pixels_are_plain_srgb_rounding(tmp_path, capsys):
     from renderer.views import WorldPanorama
 
     out = tmp_path / "f.png"
-    assert run(["render", *SITE, "--width", "64", "--out", str(out), "--no-sidecar"], capsys)[0] == 0
+    assert run(["render", *SITE, "--width", "64", "--gain", "1", "--out", str(out),
+                "--no-sidecar"], capsys)[0] == 0
     assert not (tmp_path / "f.json").exists()
     img = renderer.render(igrf(40.0, 5.0, 0.0, "2026-05-20"), Pose(0.0), load_layout("lateral"),
                           Legendre([0.7, 0.0, 0.1]), WorldPanorama(64), scene=dusk(1024),
