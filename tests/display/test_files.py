@@ -112,7 +112,6 @@ def test_default_pixels_are_plain_srgb_rounding(tmp_path, capsys):
 
     import renderer
     from renderer.composite import to_uint8_srgb
-    from renderer.defaults import DEFAULT_GAIN
     from renderer.eye import load_layout
     from renderer.field import igrf
     from renderer.pose import Pose
@@ -126,7 +125,7 @@ def test_default_pixels_are_plain_srgb_rounding(tmp_path, capsys):
     assert not (tmp_path / "f.json").exists()
     img = renderer.render(igrf(40.0, 5.0, 0.0, "2026-05-20"), Pose(0.0), load_layout("lateral"),
                           Legendre([0.7, 0.0, 0.1]), WorldPanorama(64), scene=dusk(1024),
-                          gain=DEFAULT_GAIN, outside=0.25)
+                          gain=1.0, outside=0.25)
     np.testing.assert_array_equal(iio.imread(out), to_uint8_srgb(img))
 
 
