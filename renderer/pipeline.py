@@ -292,8 +292,57 @@ def render(field, pose, layout, response, view, scene=None, gain=DEFAULT_GAIN, p
     return composite_inputs(inputs, mean, layout, view, scene, g, o)
 
 
+def _filter_args(view, scene):
+    """The pyramid and tap count the kernels take for the view's scene filter."""
+    name = getattr(view, "filter", "bilinear")
+    nt = kernels.ntaps_for(name)
+    return (scene.pyramid() if nt > 0 else None), nt
+
+
 def composite_inputs(inputs, mean, layout, view, scene, gain, outside) -> np.ndarray:
-    """Composite with prepared inputs (the study runner reuses ``inputs``)."""
+    """Composite with prepared inputs (the study runner reuses ``inputs``).
+
+    The scene is read through the view's ``filter``; with ``supersample`` N > 1 the
+    modulation factor is the mean of its values on the N × N sub-pixels (see
+    :func:`_supersampled_factor`).
+    """
+    n = int(getattr(view, "supersample", 1))
+    if n > 1:
+        base = _composite(inputs, mean, layout, view, scene, 0.0, 1.0)
+        k, seen = _supersampled_factor(inputs, mean, layout, view, n, gain, outside)
+        out = base * k[..., None].astype(np.float32)
+        np.clip(out, 0.0, 1.0, out=out, where=seen[..., None])
+        return out
+    return _composite(inputs, mean, layout, view, scene, gain, outside)
+
+
+def _supersampled_factor(inputs, mean, layout, view, n, gain, outside):
+    """The modulation factor of each pixel as the box average over its n × n sub-pixels
+    (the pixel grid of ``view.scaled(n)``) of 1 + gain·(s/⟨s⟩ − 1) where an eye sees and
+    ``outside`` where none does, over the sub-pixels inside the view's footprint: the
+    pattern and the visual-field outline get the pixel's box-filtered value rather than
+    its centre's.  Returns (factor (H, W), any sub-pixel seen (H, W) bool)."""
+    H, W = view.shape
+    fine = view.scaled(n)
+    sig = _signal_map(inputs, fine, layout, inputs.lut)
+    seen = ~np.isnan(sig)
+    k = np.where(seen, 1.0 + gain * (np.where(seen, sig, mean) / mean - 1.0), outside)
+    if fine.equirect:
+        inside = np.ones(sig.shape, bool)
+    else:
+        inside = ~np.isnan(fine.directions(layout)[..., 0])
+
+    def block_sum(a):
+        return a.reshape(H, n, W, n).sum(axis=(1, 3))
+
+    cnt = block_sum(inside.astype(np.float64))
+    ksum = block_sum(np.where(inside, k, 0.0))
+    factor = np.where(cnt > 0, ksum / np.maximum(cnt, 1.0), outside)
+    any_seen = block_sum((seen & inside).astype(np.float64)) > 0
+    return factor, any_seen
+
+
+def _composite(inputs, mean, layout, view, scene, gain, outside) -> np.ndarray:
     H, W = view.shape
     M = np.ascontiguousarray(_R_head_view(view, inputs))
     Q = np.ascontiguousarray(inputs.R_head_world.T @ M)  # R_world_view
@@ -304,19 +353,23 @@ def composite_inputs(inputs, mean, layout, view, scene, gain, outside) -> np.nda
     if view.equirect:
         tables = view.tables()
         if view.frame == "world" and img.shape[:2] == (H, W) and scene.north_col == W / 2.0:
+            # the view's grid is the scene's: nothing is resampled, nothing to filter
             kernels.composite_world_aligned(img, *tables, M, inputs.R_eye_head, inputs.eye_params,
                                             inputs.b_eye, inputs.lut, pick, inv_mean, gain, outside,
                                             out, cubes=inputs.cubes)
         else:
+            pyr, nt = _filter_args(view, scene)
             kernels.composite_resampled(img, scene.north_col, *tables, M, Q, inputs.R_eye_head,
                                         inputs.eye_params, inputs.b_eye, inputs.lut, pick,
-                                        inv_mean, gain, outside, out, cubes=inputs.cubes)
+                                        inv_mean, gain, outside, out, cubes=inputs.cubes,
+                                        pyramid=pyr, ntaps_max=nt)
         return out
     dirs = np.ascontiguousarray(view.directions(layout).reshape(-1, 3))
     flat = out.reshape(-1, img.shape[2])
+    pyr, nt = _filter_args(view, scene)
     kernels.composite_dirs(img, scene.north_col, dirs, M, Q, inputs.R_eye_head, inputs.eye_params,
                            inputs.b_eye, inputs.lut, pick, inv_mean, gain, outside, flat,
-                           cubes=inputs.cubes)
+                           cubes=inputs.cubes, pyramid=pyr, ntaps_max=nt, grid_width=W)
     return out
 
 

@@ -55,6 +55,20 @@ class Scene:
     def shape(self):
         return self.image.shape[:2]
 
+    def pyramid(self):
+        """The scene's mipmap pyramid (:func:`renderer.kernels.build_pyramid`, linear
+        light), built on first use and kept with this Scene object, so every frame and
+        view rendered over it reuses it.  The image is made read-only then, so the two
+        cannot drift apart (copy the image to edit it, and make a new Scene)."""
+        pyr = self.__dict__.get("_pyramid")
+        if pyr is None or tuple(pyr.shape) != tuple(self.image.shape):
+            from .kernels import build_pyramid
+
+            self.image.setflags(write=False)
+            pyr = build_pyramid(self.image)
+            object.__setattr__(self, "_pyramid", pyr)
+        return pyr
+
     @classmethod
     def load(cls, path, north_col=None) -> "Scene":
         """Read a 2:1 panorama file (8-bit taken as sRGB, 16-bit as linear)."""

@@ -256,6 +256,13 @@ def add_view_args(p, default_width=1024):
     g.add_argument("--scene", default=None, metavar="FILE", help="2:1 equirectangular scene image (default: procedural dusk)")
     g.add_argument("--north-col", type=float, default=None,
                    help="column (pixels) of geographic north in the scene (default: width/2)")
+    g.add_argument("--filter", default=None, choices=("mipmap", "trilinear", "bilinear"),
+                   help="how the scene is resampled: mipmap (anisotropic footprint filter) | "
+                        "trilinear (isotropic mipmap) | bilinear (plain reads, alias where the "
+                        "view compresses the scene) (default: mipmap)")
+    g.add_argument("--supersample", type=int, default=None, metavar="N",
+                   help="evaluate the pattern and the visual-field outline on N x N "
+                        "sub-pixels per pixel and average, 1..16 (default: 1)")
 
 
 def add_view_geometry_args(p):
@@ -293,20 +300,26 @@ def view_from_args(a):
         eye = int(eye)
     persp = {k: getattr(a, k, None) for k in _PERSPECTIVE if getattr(a, k, None) is not None}
     radius = getattr(a, "disc_radius_deg", None)
+    sampling = {}
+    if getattr(a, "filter", None) is not None:
+        sampling["filter"] = a.filter
+    if getattr(a, "supersample", None) is not None:
+        sampling["supersample"] = a.supersample
     if persp and a.view != "perspective":
         name = "--" + next(iter(persp)).replace("_", "-")
         raise MagretinaError(f"{name} applies to --view perspective, not --view {a.view}")
     if radius is not None and a.view != "eye-disc":
         raise MagretinaError(f"--disc-radius-deg applies to --view eye-disc, not --view {a.view}")
     if a.view == "eye-disc":
-        return REGISTRY[a.view](eye=0 if eye is None else eye, size=a.width, radius_deg=radius)
+        return REGISTRY[a.view](eye=0 if eye is None else eye, size=a.width, radius_deg=radius,
+                                **sampling)
     if a.view == "retina":
-        return REGISTRY[a.view](eye=0 if eye is None else eye, size=a.width)
+        return REGISTRY[a.view](eye=0 if eye is None else eye, size=a.width, **sampling)
     if a.view == "perspective":
         kw = {_PERSPECTIVE[k]: v for k, v in persp.items()}
         kw.setdefault("height", max(2, round(a.width * 9 / 16)))
-        return REGISTRY[a.view](width=a.width, pick=eye, **kw)
-    return REGISTRY[a.view](width=a.width, pick=eye)
+        return REGISTRY[a.view](width=a.width, pick=eye, **kw, **sampling)
+    return REGISTRY[a.view](width=a.width, pick=eye, **sampling)
 
 
 def scene_from_args(a, width):

@@ -12,6 +12,7 @@ need not know which module holds what.  The package, bottom to top:
 * :mod:`~renderer.kernels.pixels`: per-pixel kernels for explicit directions;
 * :mod:`~renderer.kernels.rows`: row passes of equirectangular views;
 * :mod:`~renderer.kernels.sampling`: equirectangular views over a resampled scene;
+* :mod:`~renderer.kernels.filtering`: the scene's mipmap pyramid and the footprint filter;
 * :mod:`~renderer.kernels.twins`: the NumPy reference twins.
 
 Everything here takes plain arrays and imports only numpy, numba and the bottom layer
@@ -32,14 +33,16 @@ from .layout import (MODE_AXIAL, MODE_FULL_FIXED, MODE_FULL_MERIDIAN, MODE_RATIO
                      P_COS_OUT, P_COS_PSI, P_CUBE, P_DORSAL, P_E2, P_FULL, P_LUT, P_MODE,
                      P_NASAL, P_Q, P_RB0, P_RB1, P_RB2, P_SIGN, P_SIN_PSI, P_TEMPORAL,
                      P_VENTRAL, PARAMS, pack_eyes)
+from .filtering import FILTERS, NTAPS_MAX, Pyramid, build_pyramid, ntaps_for
 from .leaf import ATAN_COEFFS, ATAN_MARGIN, FASTMATH, fast_angle
 from .pixels import composite_dirs, pattern_dirs
 from .rows import COS_MARGIN, COS_SQRT_COEFFS, composite_world_aligned, pattern_equirect
 from .sampling import ATAN2_COEFFS, composite_resampled
 from .tables import cube_nodes, cube_table, equirect_dirs, equirect_tables
-from .twins import (cube_lookup_numpy, lut_lookup_numpy, mode_axes_numpy, modulate_numpy,
-                    normal_coefficients, pattern_numpy, ray_parameter, receptor_frames_numpy,
-                    sample_equirect_numpy, signal_numpy, visible_numpy)
+from .twins import (cube_lookup_numpy, grid_tangents_numpy, lut_lookup_numpy, mode_axes_numpy,
+                    modulate_numpy, normal_coefficients, pattern_numpy, ray_parameter,
+                    receptor_frames_numpy, sample_equirect_numpy, sample_filtered_numpy,
+                    sample_mipmap_numpy, scene_jacobian_numpy, signal_numpy, visible_numpy)
 
 __all__ = [
     "ATAN2_COEFFS", "ATAN_COEFFS", "ATAN_MARGIN", "COS_MARGIN", "COS_SQRT_COEFFS", "FASTMATH",
@@ -52,4 +55,6 @@ __all__ = [
     "lut_lookup_numpy", "mode_axes_numpy", "modulate_numpy", "normal_coefficients",
     "pack_eyes", "pattern_dirs", "pattern_equirect", "pattern_numpy", "ray_parameter",
     "receptor_frames_numpy", "sample_equirect_numpy", "signal_numpy", "visible_numpy",
+    "FILTERS", "NTAPS_MAX", "Pyramid", "build_pyramid", "grid_tangents_numpy", "ntaps_for",
+    "sample_filtered_numpy", "sample_mipmap_numpy", "scene_jacobian_numpy",
 ]

@@ -18,6 +18,7 @@ from numba import njit, prange
 from .layout import (MODE_AXIAL, MODE_FULL_FIXED, MODE_RATIO, P_COS_IN, P_COS_OUT, P_COS_PSI,
                      P_CUBE, P_E2, P_FULL, P_LUT, P_MODE, P_Q, P_RB0, P_RB1, P_RB2, P_SIN_PSI,
                      _fold, _tables)
+from .filtering import _mip_pixel
 from .leaf import (FASTMATH, _cube_lookup, _inplane_field, _lut_lookup, _lut_row_lookup,
                    _molecular_xy, _ratio_cos, _visible)
 
@@ -146,12 +147,70 @@ def _modulate(px, s, inv_mean, gain, outside, out_px):
         out_px[c] = v
 
 
+@njit(cache=True, inline="always", fastmath=FASTMATH)
+def _grid_step(dirs, n, m_prev, m_next, has_prev, has_next, t):
+    """Direction step of one pixel along a grid axis into ``t`` (3,): the central
+    difference of the neighbours ``m_prev``, ``m_next`` (flat indices) where both exist
+    and are inside the view's footprint, else one-sided, else 0 (as
+    ``grid_tangents_numpy``)."""
+    okp = has_prev and dirs[m_prev, 0] == dirs[m_prev, 0]
+    okn = has_next and dirs[m_next, 0] == dirs[m_next, 0]
+    for k in range(3):
+        if okp and okn:
+            t[k] = 0.5 * (dirs[m_next, k] - dirs[m_prev, k])
+        elif okn:
+            t[k] = dirs[m_next, k] - dirs[n, k]
+        elif okp:
+            t[k] = dirs[n, k] - dirs[m_prev, k]
+        else:
+            t[k] = 0.0
+
+
+@njit(cache=True, inline="always", fastmath=FASTMATH)
+def _mip_dir_sample(flat, levels, scale, ntaps_max, north_col, SW, SH, dirs, n, GW, Q, tc, tr,
+                    px):
+    """Footprint-filtered scene value for grid pixel ``n`` (flat index; rows of GW
+    pixels) into ``px``: scene coords of its direction and the Jacobian from the
+    direction steps to its grid neighbours, rotated into the world frame by ``Q``."""
+    N = dirs.shape[0]
+    j = n % GW
+    _grid_step(dirs, n, n - 1, n + 1, j > 0, j + 1 < GW, tc)
+    _grid_step(dirs, n, n - GW, n + GW, n - GW >= 0, n + GW < N, tr)
+    vx = dirs[n, 0]
+    vy = dirs[n, 1]
+    vz = dirs[n, 2]
+    wx = Q[0, 0] * vx + Q[0, 1] * vy + Q[0, 2] * vz
+    wy = Q[1, 0] * vx + Q[1, 1] * vy + Q[1, 2] * vz
+    wz = Q[2, 0] * vx + Q[2, 1] * vy + Q[2, 2] * vz
+    ax_ = Q[0, 0] * tc[0] + Q[0, 1] * tc[1] + Q[0, 2] * tc[2]
+    ay_ = Q[1, 0] * tc[0] + Q[1, 1] * tc[1] + Q[1, 2] * tc[2]
+    az_ = Q[2, 0] * tc[0] + Q[2, 1] * tc[1] + Q[2, 2] * tc[2]
+    bx_ = Q[0, 0] * tr[0] + Q[0, 1] * tr[1] + Q[0, 2] * tr[2]
+    by_ = Q[1, 0] * tr[0] + Q[1, 1] * tr[1] + Q[1, 2] * tr[2]
+    bz_ = Q[2, 0] * tr[0] + Q[2, 1] * tr[1] + Q[2, 2] * tr[2]
+    kx = SW / (2.0 * math.pi)
+    ky = SH / math.pi
+    rho2 = wx * wx + wy * wy
+    rho = math.sqrt(rho2)
+    inv2 = 1.0 / max(rho2, 1e-300)
+    inv = 1.0 / max(rho, 1e-300)
+    x = north_col + math.atan2(wy, wx) * kx
+    y = (0.5 * math.pi - math.asin(min(1.0, max(-1.0, -wz)))) * ky
+    _mip_pixel(flat, levels, scale, px.shape[0], ntaps_max, x, y,
+               kx * (wx * ay_ - wy * ax_) * inv2, ky * az_ * inv,
+               kx * (wx * by_ - wy * bx_) * inv2, ky * bz_ * inv, px)
+
+
 @njit(parallel=True, cache=True, fastmath=FASTMATH)
 def _composite_dirs(scene, north_col, dirs, R_head_view, R_world_view, R_eye_view, eye_params,
-                   b_eye, lut, cubes, pick, inv_mean, gain, outside, out):
+                   b_eye, lut, cubes, pick, inv_mean, gain, outside, out, GW, pyr_flat, pyr_levels,
+                   pyr_scale, ntaps_max):
     """Composite for explicit view directions ``dirs`` (N, 3); ``out`` (N, C) float32.
 
-    Rows of ``dirs`` that are NaN (outside a view's footprint) give 0.
+    Rows of ``dirs`` that are NaN (outside a view's footprint) give 0.  With
+    ``ntaps_max`` >= 1 the scene is read through its pyramid (``pyr_*``) with the
+    footprint filter of :mod:`renderer.kernels.filtering`; ``dirs`` is then a grid of
+    rows of ``GW`` pixels, whose neighbours give each pixel's footprint.
     """
     SH = scene.shape[0]
     SW = scene.shape[1]
@@ -159,12 +218,21 @@ def _composite_dirs(scene, north_col, dirs, R_head_view, R_world_view, R_eye_vie
     Q = R_world_view
     for n in prange(dirs.shape[0]):
         px = np.empty(C, dtype=np.float32)
+        pm = np.empty(C)
+        tc = np.empty(3)
+        tr = np.empty(3)
         vx = dirs[n, 0]
         vy = dirs[n, 1]
         vz = dirs[n, 2]
         if vx != vx:
             for c in range(C):
                 out[n, c] = 0.0
+            continue
+        s = _signal(vx, vy, vz, R_eye_view, eye_params, b_eye, lut, cubes, pick)
+        if ntaps_max > 0:
+            _mip_dir_sample(pyr_flat, pyr_levels, pyr_scale, ntaps_max, north_col, SW, SH, dirs,
+                            n, GW, Q, tc, tr, pm)
+            _modulate(pm, s, inv_mean, gain, outside, out[n])
             continue
         wx = Q[0, 0] * vx + Q[0, 1] * vy + Q[0, 2] * vz
         wy = Q[1, 0] * vx + Q[1, 1] * vy + Q[1, 2] * vz
@@ -173,7 +241,6 @@ def _composite_dirs(scene, north_col, dirs, R_head_view, R_world_view, R_eye_vie
         el = math.asin(min(1.0, max(-1.0, -wz)))
         _bilinear(scene, north_col + az * (SW / (2.0 * math.pi)), (0.5 * math.pi - el) * (SH / math.pi),
                   px)
-        s = _signal(vx, vy, vz, R_eye_view, eye_params, b_eye, lut, cubes, pick)
         _modulate(px, s, inv_mean, gain, outside, out[n])
 
 
@@ -188,12 +255,23 @@ def pattern_dirs(dirs, R_head_view, R_eye_head, eye_params, b_eye, lut, pick, ou
 
 
 def composite_dirs(scene, north_col, dirs, R_head_view, R_world_view, R_eye_head, eye_params,
-                   b_eye, lut, pick, inv_mean, gain, outside, out, cubes=None):
+                   b_eye, lut, pick, inv_mean, gain, outside, out, cubes=None, pyramid=None,
+                   ntaps_max=0, grid_width=None):
     """Composite for explicit view directions ``dirs`` (N, 3); ``out`` (N, C) float32.
 
-    Rows of ``dirs`` that are NaN (outside a view's footprint) give 0.
+    Rows of ``dirs`` that are NaN (outside a view's footprint) give 0.  Given the
+    scene's ``pyramid`` and ``ntaps_max`` >= 1, ``dirs`` must be a view's pixel grid
+    flattened row by row, rows of ``grid_width`` pixels: each pixel's footprint on the
+    scene comes from the directions of its neighbours.
     """
+    from .sampling import _pyramid_args
+
     lut, cubes = _tables(eye_params, lut, cubes)
+    pf, pl, ps, nt = _pyramid_args(scene, pyramid, ntaps_max)
+    GW = 1 if grid_width is None else int(grid_width)
+    if nt > 0 and (grid_width is None or dirs.shape[0] % GW):
+        raise ValueError(f"the footprint filter needs the grid width of dirs ({dirs.shape[0]} "
+                         f"directions, grid_width = {grid_width!r})")
     _composite_dirs(scene, north_col, dirs, R_head_view, R_world_view,
                     _fold(R_eye_head, R_head_view), eye_params,
-                    b_eye, lut, cubes, pick, inv_mean, gain, outside, out)
+                    b_eye, lut, cubes, pick, inv_mean, gain, outside, out, GW, pf, pl, ps, nt)

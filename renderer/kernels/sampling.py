@@ -14,9 +14,10 @@ import math
 import numpy as np
 from numba import get_num_threads, njit, prange
 
+from .filtering import _mip_pixel
 from .layout import _fold, _tables
 from .leaf import FASTMATH
-from .rows import (RB_A, RB_UX, RB_UY, RB_UZ, ROW_BLOCK, _NROW, _item_order, _row_setup,
+from .rows import (RB_A, RB_B, RB_C, RB_UX, RB_UY, RB_UZ, ROW_BLOCK, _NROW, _item_order, _row_setup,
                    _row_signal, _shared_group)
 
 
@@ -163,17 +164,91 @@ def _row_sample_modulate3(flat, SW, SH, X0, FX, Y0, FY, sig, inv_mean, gain, out
         out_row[3 * j + 2] = c2 if seen else v2
 
 
+@njit(cache=True, fastmath=FASTMATH, error_model="numpy")
+def _row_scene_jacobian(ce, se, caz, saz, Q, north_col, SW, SH, dcol, drow, X, Y, AX, AY,
+                        BX, BY):
+    """Level-0 continuous scene coords (X, Y, unwrapped) of one row of an
+    equirectangular view and the Jacobian's columns (AX, AY: one pixel step right; BX,
+    BY: one step down), in scene texels, as ``scene_jacobian_numpy`` computes them.
+
+    The view direction v = (ce·cos az, ce·sin az, −se) changes by
+    dcol·(−ce·sin az, ce·cos az, 0) per column and drow·(se·cos az, se·sin az, ce) per
+    row (dcol = 2π/W, drow = π/H); both steps are rotated with v into the world frame
+    (w = Q v), where azimuth atan2(w_y, w_x) and elevation asin(−w_z) change by
+    (w_x dw_y − w_y dw_x)/ρ² and −dw_z/ρ, ρ² = w_x² + w_y²: near the scene's poles the
+    column step grows as 1/ρ, the longitude compression.  One vectorised loop."""
+    q00, q01, q02 = Q[0, 0], Q[0, 1], Q[0, 2]
+    q10, q11, q12 = Q[1, 0], Q[1, 1], Q[1, 2]
+    q20, q21, q22 = Q[2, 0], Q[2, 1], Q[2, 2]
+    kx = SW / (2.0 * math.pi)
+    ky = SH / math.pi
+    vz = -se
+    for j in range(caz.shape[0]):
+        c = caz[j]
+        s = saz[j]
+        vx = ce * c
+        vy = ce * s
+        wx = q00 * vx + q01 * vy + q02 * vz
+        wy = q10 * vx + q11 * vy + q12 * vz
+        wz = q20 * vx + q21 * vy + q22 * vz
+        # column step (−ce s, ce c, 0)·dcol and row step (se c, se s, ce)·drow
+        ux = -ce * s * dcol
+        uy = ce * c * dcol
+        tx = q00 * ux + q01 * uy
+        ty = q10 * ux + q11 * uy
+        tz = q20 * ux + q21 * uy
+        rx = se * c * drow
+        ry = se * s * drow
+        rz = ce * drow
+        sx = q00 * rx + q01 * ry + q02 * rz
+        sy = q10 * rx + q11 * ry + q12 * rz
+        sz = q20 * rx + q21 * ry + q22 * rz
+        rho2 = wx * wx + wy * wy
+        rho = math.sqrt(rho2)
+        inv2 = 1.0 / (rho2 if rho2 > 1e-300 else 1e-300)
+        inv = 1.0 / (rho if rho > 1e-300 else 1e-300)
+        az = _atan2(wy, wx)
+        el = _atan2(-wz, rho)
+        X[j] = north_col + az * kx
+        Y[j] = (0.5 * math.pi - el) * ky
+        AX[j] = kx * (wx * ty - wy * tx) * inv2
+        AY[j] = ky * tz * inv
+        BX[j] = kx * (wx * sy - wy * sx) * inv2
+        BY[j] = ky * sz * inv
+
+
+@njit(cache=True, fastmath=FASTMATH, error_model="numpy")
+def _row_mip_modulate(flat, levels, scale, C, ntaps_max, X, Y, AX, AY, BX, BY, sig, inv_mean,
+                      gain, outside, acc, out_row):
+    """Footprint-filtered samples (:func:`renderer.kernels.filtering._mip_pixel`) at the
+    coordinates of :func:`_row_scene_jacobian`, modulated as ``_modulate`` does, into one
+    flattened (W·C,) output row.  Scalar (the reads)."""
+    for j in range(sig.shape[0]):
+        _mip_pixel(flat, levels, scale, C, ntaps_max, X[j], Y[j], AX[j], AY[j], BX[j], BY[j],
+                   acc)
+        s = sig[j]
+        seen = s == s
+        k = 1.0 + gain * (s * inv_mean - 1.0) if seen else outside
+        for c in range(C):
+            v = acc[c] * k
+            v = (0.0 if v < 0.0 else (1.0 if v > 1.0 else v)) if seen else v
+            out_row[j * C + c] = v
+
+
 @njit(parallel=True, cache=True, fastmath=FASTMATH)
 def _composite_resampled(scene, north_col, cos_el, sin_el, cos_az, sin_az, R_head_view,
                          R_world_view, R_eye_view, eye_params, b_eye, shared, bv, lut, cubes,
-                         pick, inv_mean, gain, outside, out, nthreads):
+                         pick, inv_mean, gain, outside, out, nthreads, pyr_flat, pyr_levels,
+                         pyr_scale, ntaps_max):
     """Composite an equirectangular view (any frame) over a resampled scene.
 
     The scene is a 2:1 world panorama with geographic north at continuous column
     ``north_col``; each output pixel's direction is rotated into the world frame by
-    ``R_world_view`` and the scene sampled bilinearly.  The signal comes from the row
-    passes of the world composite, the sampling coordinates from one vectorised loop
-    per row (:func:`_row_scene_coords`); ``out`` must be C-contiguous.
+    ``R_world_view`` and the scene sampled bilinearly (``ntaps_max`` = 0) or through
+    its pyramid (``pyr_*``, :mod:`renderer.kernels.filtering`) with up to ``ntaps_max``
+    taps.  The signal comes from the row passes of the world composite, the sampling
+    coordinates from one vectorised loop per row (:func:`_row_scene_coords`,
+    :func:`_row_scene_jacobian`); ``out`` must be C-contiguous.
     """
     H = cos_el.shape[0]
     W = cos_az.shape[0]
@@ -194,6 +269,7 @@ def _composite_resampled(scene, north_col, cos_el, sin_el, cos_az, sin_az, R_hea
         dec = np.empty((E, nb))
         kinds = np.empty(nb)
         sig = np.empty(W)
+        acc = np.empty(C)
         r0 = order[blk] * ROW_BLOCK
         for i in range(r0, min(H, r0 + ROW_BLOCK)):
             ce = cos_el[i]
@@ -201,6 +277,14 @@ def _composite_resampled(scene, north_col, cos_el, sin_el, cos_az, sin_az, R_hea
             _row_signal(ce, vz, cos_az, sin_az, bnd, R_eye_view, eye_params, kcs, b_eye,
                         active, fast, bv, srow, pairs, cubes, rb, ib, dec, kinds, sig)
             # the row buffers are free again: they take the sampling coordinates
+            if ntaps_max > 0:
+                _row_scene_jacobian(ce, sin_el[i], cos_az, sin_az, Q, north_col, SW, SH,
+                                    2.0 * math.pi / W, math.pi / H, rb[RB_UX], rb[RB_UY],
+                                    rb[RB_UZ], rb[RB_A], rb[RB_B], rb[RB_C])
+                _row_mip_modulate(pyr_flat, pyr_levels, pyr_scale, C, ntaps_max, rb[RB_UX],
+                                  rb[RB_UY], rb[RB_UZ], rb[RB_A], rb[RB_B], rb[RB_C], sig,
+                                  inv_mean, gain, outside, acc, out[i].reshape(-1))
+                continue
             _row_scene_coords(ce, vz, cos_az, sin_az, Q, north_col, SW, SH, rb[RB_UX],
                               rb[RB_UY], rb[RB_UZ], rb[RB_A])
             if C == 3:
@@ -214,12 +298,14 @@ def _composite_resampled(scene, north_col, cos_el, sin_el, cos_az, sin_az, R_hea
 
 def composite_resampled(scene, north_col, cos_el, sin_el, cos_az, sin_az, R_head_view,
                         R_world_view, R_eye_head, eye_params, b_eye, lut, pick, inv_mean, gain,
-                        outside, out, cubes=None):
+                        outside, out, cubes=None, pyramid=None, ntaps_max=0):
     """Composite an equirectangular view (any frame) over a resampled scene.
 
     The scene is a 2:1 world panorama with geographic north at continuous column
     ``north_col``; each output pixel's direction is rotated into the world frame by
-    ``R_world_view`` and the scene sampled bilinearly.
+    ``R_world_view`` and the scene sampled bilinearly, or, given the scene's
+    ``pyramid`` (:func:`renderer.kernels.filtering.build_pyramid`) and ``ntaps_max``
+    >= 1, by the footprint filter of :mod:`renderer.kernels.filtering`.
     """
     lut, cubes = _tables(eye_params, lut, cubes)
     R_eye_view = _fold(R_eye_head, R_head_view)
@@ -227,8 +313,25 @@ def composite_resampled(scene, north_col, cos_el, sin_el, cos_az, sin_az, R_head
     # the kernel reads and writes flat arrays, which needs C-contiguous images
     scene = np.ascontiguousarray(scene)
     dest = out if out.flags.c_contiguous else np.empty(out.shape, out.dtype)
+    pf, pl, ps, nt = _pyramid_args(scene, pyramid, ntaps_max)
     _composite_resampled(scene, north_col, cos_el, sin_el, cos_az, sin_az, R_head_view,
                          R_world_view, R_eye_view, eye_params, b_eye, shared, bv, lut, cubes,
-                         pick, inv_mean, gain, outside, dest, get_num_threads())
+                         pick, inv_mean, gain, outside, dest, get_num_threads(), pf, pl, ps, nt)
     if dest is not out:
         out[...] = dest
+
+
+def _pyramid_args(scene, pyramid, ntaps_max):
+    """The pyramid arrays the kernels take (placeholders for the bilinear path), checked
+    against the scene they stand for."""
+    nt = int(ntaps_max) if pyramid is not None else 0
+    if nt <= 0:
+        return _NO_PYR_FLAT, _NO_PYR_LEVELS, _NO_PYR_SCALE, 0
+    if tuple(pyramid.shape) != tuple(scene.shape):
+        raise ValueError(f"the pyramid is of a {pyramid.shape} image, the scene is {scene.shape}")
+    return pyramid.flat, pyramid.levels, pyramid.scale, nt
+
+
+_NO_PYR_FLAT = np.zeros(1, np.float32)
+_NO_PYR_LEVELS = np.zeros((1, 3), np.int64)
+_NO_PYR_SCALE = np.ones(1)

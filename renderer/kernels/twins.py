@@ -258,3 +258,143 @@ def modulate_numpy(px, s, inv_mean, gain, outside):
     seen = ~np.isnan(s)
     out = np.where(seen[:, None], np.clip(px * k[:, None], 0.0, 1.0), px * outside)
     return out
+
+
+# ---------------------------------------------------------------------------
+# twins of the prefiltered scene lookup (renderer.kernels.filtering)
+# ---------------------------------------------------------------------------
+
+def grid_tangents_numpy(dirs_grid):
+    """Per-pixel direction steps of an (H, W, 3) direction grid (NaN outside a view's
+    footprint): (d_col, d_row), each (H, W, 3), the change of the direction for one
+    pixel step right and one step down.  Central differences where both neighbours
+    exist, one-sided where only one does, 0 where neither (the kernels' rule)."""
+    d = np.asarray(dirs_grid, dtype=np.float64)
+
+    def steps(a):
+        # a: (..., n, 3), differences along axis -2
+        ok = ~np.isnan(a[..., 0])
+        nxt = np.full_like(a, np.nan)
+        prv = np.full_like(a, np.nan)
+        nxt[..., :-1, :] = a[..., 1:, :]
+        prv[..., 1:, :] = a[..., :-1, :]
+        okn = ~np.isnan(nxt[..., 0]) & ok
+        okp = ~np.isnan(prv[..., 0]) & ok
+        both = (okn & okp)[..., None]
+        out = np.where(both, 0.5 * (nxt - prv),
+                       np.where(okn[..., None], nxt - a, np.where(okp[..., None], a - prv, 0.0)))
+        return np.where(ok[..., None], out, 0.0)
+
+    d_col = steps(d)
+    d_row = np.swapaxes(steps(np.swapaxes(d, 0, 1)), 0, 1)
+    return d_col, d_row
+
+
+def scene_jacobian_numpy(north_col, SW, SH, dirs_world, dcol_world, drow_world):
+    """Level-0 continuous scene coords (x, y) of world directions (N, 3) and the
+    Jacobian's columns (ax, ay), (bx, by): texel steps for the direction steps
+    ``dcol_world`` and ``drow_world`` (N, 3), by the derivatives of azimuth
+    atan2(w_y, w_x) and elevation asin(−w_z)."""
+    d = np.asarray(dirs_world, dtype=np.float64)
+    kx = SW / (2 * np.pi)
+    ky = SH / np.pi
+    az = np.arctan2(d[:, 1], d[:, 0])
+    el = np.arcsin(np.clip(-d[:, 2], -1.0, 1.0))
+    x = np.mod(north_col + az * kx, SW)
+    y = (0.5 * np.pi - el) * ky
+    rho2 = d[:, 0] ** 2 + d[:, 1] ** 2
+    rho = np.sqrt(rho2)
+    inv2 = 1.0 / np.maximum(rho2, 1e-300)
+    inv = 1.0 / np.maximum(rho, 1e-300)
+
+    def col(t):
+        t = np.asarray(t, dtype=np.float64)
+        return (kx * (d[:, 0] * t[:, 1] - d[:, 1] * t[:, 0]) * inv2, ky * t[:, 2] * inv)
+
+    ax, ay = col(dcol_world)
+    bx, by = col(drow_world)
+    return x, y, ax, ay, bx, by
+
+
+def _level_bilinear_numpy(level, x, y):
+    Hl, Wl = level.shape[:2]
+    xs = x - 0.5
+    ys = np.clip(y - 0.5, 0.0, Hl - 1.0)
+    x0f = np.floor(xs)
+    fx = (xs - x0f)[:, None]
+    x0 = x0f.astype(np.int64) % Wl
+    x1 = (x0 + 1) % Wl
+    y0 = np.minimum(ys.astype(np.int64), max(Hl - 2, 0))
+    fy = (ys - y0)[:, None]
+    y1 = np.minimum(y0 + 1, Hl - 1)
+    s = level.astype(np.float64)
+    top = s[y0, x0] * (1 - fx) + s[y0, x1] * fx
+    bot = s[y1, x0] * (1 - fx) + s[y1, x1] * fx
+    return top * (1 - fy) + bot * fy
+
+
+def sample_mipmap_numpy(pyramid, ntaps_max, x, y, ax, ay, bx, by):
+    """NumPy twin of the footprint filter (``filtering._mip_pixel``): level-0 coords
+    (N,) and Jacobian columns (N,) -> (N, C) float64."""
+    from .filtering import LOD_SCALE
+
+    x, y, ax, ay, bx, by = (np.asarray(v, dtype=np.float64) for v in (x, y, ax, ay, bx, by))
+    H0, W0, C = pyramid.shape
+    p = ax * ax + bx * bx
+    r = ay * ay + by * by
+    q = ax * ay + bx * by
+    m = 0.5 * (p + r)
+    h = np.sqrt((0.5 * (p - r)) ** 2 + q * q)
+    s1 = np.minimum(np.sqrt(m + h), float(W0))
+    s2 = np.minimum(np.sqrt(np.maximum(m - h, 0.0)), s1)
+    if ntaps_max > 1:
+        n = np.clip(np.ceil(s1 / np.maximum(s2, 1.0) - 1e-9), 1, ntaps_max).astype(np.int64)
+    else:
+        n = np.ones(x.shape, np.int64)
+    lam = m + h
+    ex = np.where(p >= r, lam - r, q)
+    ey = np.where(p >= r, q, lam - p)
+    en = np.hypot(ex, ey)
+    ex, ey = np.where(en > 0, ex / np.where(en > 0, en, 1), 1.0), np.where(en > 0, ey / np.where(en > 0, en, 1), 0.0)
+    w = np.where(n == 1, s1, np.maximum(s1 / n, s2))
+    s = w * LOD_SCALE
+    L = pyramid.levels.shape[0]
+    scale = pyramid.scale
+    # level l: the largest with scale[l] <= s (0 below one texel); blend to l + 1
+    l = np.clip(np.searchsorted(scale, s, side="right") - 1, 0, L - 1)
+    top = l + 1 >= L
+    lo_scale = scale[l]
+    hi_scale = scale[np.minimum(l + 1, L - 1)]
+    f = np.where((s <= 1.0) | top, 0.0, (s - lo_scale) / np.where(top, 1.0, hi_scale - lo_scale))
+    l = np.where(s <= 1.0, 0, l)
+    out = np.zeros((x.shape[0], C))
+    for k in range(int(n.max()) if n.size else 0):
+        use = k < n
+        t = ((k + 0.5) / n - 0.5) * s1
+        tx = np.where(n == 1, x, x + t * ex)
+        ty = np.where(n == 1, y, y + t * ey)
+        for lev in np.unique(l[use]):
+            for dl, wt in ((0, 1.0 - f), (1, f)):
+                sel = use & (l == lev) & (wt > 0.0)
+                if lev + dl >= L or not sel.any():
+                    continue
+                lv = pyramid.level(lev + dl)
+                Hl, Wl = lv.shape[:2]
+                val = _level_bilinear_numpy(lv, tx[sel] * (Wl / W0), ty[sel] * (Hl / H0))
+                out[sel] += val * (wt[sel] / n[sel])[:, None]
+    return out
+
+
+def sample_filtered_numpy(scene, north_col, dirs_world, dcol_world, drow_world, filter_name,
+                          pyramid=None):
+    """Scene values at world directions (N, 3) under a named filter: the plain bilinear
+    twin, or the footprint filter with the direction steps of one pixel (N, 3)."""
+    from .filtering import build_pyramid, ntaps_for
+
+    if filter_name == "bilinear":
+        return sample_equirect_numpy(scene, north_col, dirs_world)
+    SH, SW = scene.shape[:2]
+    pyr = build_pyramid(scene) if pyramid is None else pyramid
+    x, y, ax, ay, bx, by = scene_jacobian_numpy(north_col, SW, SH, dirs_world, dcol_world,
+                                                drow_world)
+    return sample_mipmap_numpy(pyr, ntaps_for(filter_name), x, y, ax, ay, bx, by)

@@ -9,12 +9,12 @@ eye.  Pixels beyond the disc are masked.  Not for retinal coordinates.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
 from ..errors import MagretinaError, check_range
-from .base import View
+from .base import DEFAULT_FILTER, View, check_sampling
 
 
 @dataclass(frozen=True)
@@ -35,9 +35,12 @@ class EyeDisc(View):
     eye: object = 0
     size: int = 512
     radius_deg: float | None = None
+    filter: str = DEFAULT_FILTER
+    supersample: int = 1
     frame = "head"
 
     def __post_init__(self):
+        check_sampling(self)
         if int(self.size) != self.size or self.size < 4:
             raise MagretinaError(f"eye disc size = {self.size!r}: must be an integer >= 4")
         if self.radius_deg is not None:
@@ -84,3 +87,6 @@ class EyeDisc(View):
         dA = (2.0 / n * R) ** 2
         w = np.where(rho > 0, np.sin(rho) / np.where(rho > 0, rho, 1.0), 1.0) * dA
         return np.where(r <= 1.0, w, 0.0)
+
+    def scaled(self, n):
+        return replace(self, size=int(self.size) * int(n), supersample=1)

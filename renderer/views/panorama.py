@@ -9,13 +9,13 @@ azimuth measured from the head's forward axis (positive right).  Not for flat-sc
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
 from ..errors import MagretinaError
 from ..kernels import equirect_dirs, equirect_tables
-from .base import View
+from .base import DEFAULT_FILTER, View, check_sampling
 
 
 def _check_width(width):
@@ -33,10 +33,16 @@ def _check_width(width):
 class _Equirect(View):
     width: int = 1024
     pick: object = None
+    filter: str = DEFAULT_FILTER
+    supersample: int = 1
     equirect = True
 
     def __post_init__(self):
         object.__setattr__(self, "width", _check_width(self.width))
+        check_sampling(self)
+
+    def scaled(self, n):
+        return replace(self, width=self.width * int(n), supersample=1)
 
     @property
     def shape(self):

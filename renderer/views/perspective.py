@@ -11,13 +11,13 @@ NED, yaw from geographic north; "head": from the beak).  Not for panoramas.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 from scipy.spatial.transform import Rotation
 
 from ..errors import MagretinaError, check_range
-from .base import View
+from .base import DEFAULT_FILTER, View, check_sampling
 
 FRAMES = ("world", "head")
 
@@ -47,8 +47,11 @@ class PerspectiveScreen(View):
     roll_deg: float = 0.0
     frame: str = "world"
     pick: object = None
+    filter: str = DEFAULT_FILTER
+    supersample: int = 1
 
     def __post_init__(self):
+        check_sampling(self)
         for key in ("width", "height"):
             v = getattr(self, key)
             if not isinstance(v, (int, np.integer)) or isinstance(v, bool) or v < 2 or v > 32768:
@@ -100,3 +103,7 @@ class PerspectiveScreen(View):
         s = 2.0 * np.tan(np.radians(self.hfov_deg) / 2.0) / W
         x, y = self.screen_coords()
         return s * s / (1.0 + x * x + y * y) ** 1.5
+
+    def scaled(self, n):
+        return replace(self, width=int(self.width) * int(n), height=int(self.height) * int(n),
+                       supersample=1)

@@ -14,13 +14,13 @@ direction whose ray reaches it.  Not for visual coordinates (see :mod:`.eyedisc`
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
 from ..errors import MagretinaError, check_range
 from ..eye import optics
-from .base import View
+from .base import DEFAULT_FILTER, View, check_sampling
 
 
 @dataclass(frozen=True)
@@ -41,9 +41,12 @@ class RetinaView(View):
     eye: object = 0
     size: int = 512
     rim_deg: float | None = None
+    filter: str = DEFAULT_FILTER
+    supersample: int = 1
     frame = "head"
 
     def __post_init__(self):
+        check_sampling(self)
         if not isinstance(self.size, (int, np.integer)) or self.size < 4:
             raise MagretinaError(f"retina view size = {self.size!r}: must be an integer >= 4")
         if self.rim_deg is not None:
@@ -112,3 +115,6 @@ class RetinaView(View):
         dA = (2.0 / n * B) ** 2  # area in the (β, φ) azimuthal-equidistant plane
         sin_ratio = np.where(beta > 0, np.sin(alpha) / np.where(beta > 0, beta, 1.0), dadb)
         return np.where(r <= 1.0, dA * dadb * sin_ratio, 0.0)
+
+    def scaled(self, n):
+        return replace(self, size=int(self.size) * int(n), supersample=1)

@@ -85,12 +85,12 @@ def test_perspective_against_py360convert(yaw, pitch):
 
 def test_perspective_composite_samples_scene_like_py360convert():
     """The full render path with gain 0 and nothing masked returns the scene sampled at
-    the perspective pixels: our bilinear scene lookup against py360convert's on the same
-    image, to float32 precision."""
+    the perspective pixels: our plain bilinear scene lookup (filter = "bilinear") against
+    py360convert's on the same image, to float32 precision."""
     img = _smooth_panorama(512)
     scene = Scene(img, north_col=256.0, name="t")
     W, H, hfov = 64, 48, 80.0
-    view = PerspectiveScreen(W, H, hfov, yaw_deg=25.0, pitch_deg=10.0)
+    view = PerspectiveScreen(W, H, hfov, yaw_deg=25.0, pitch_deg=10.0, filter="bilinear")
     out = renderer.render(fixed(50, 60, 0), Pose(0, 0, 0), load_layout("all-around"),
                           Legendre([1.0]), view, scene=scene, gain=0.0, outside=1.0)
     t = np.tan(np.radians(hfov) / 2)
