@@ -7,7 +7,11 @@ buffers (the memory floor), with the ratios (best and median of alternating runs
 scene and is reported the same way.  Then every receptor-alignment hypothesis is
 timed on the same composited world panorama and reported relative to the axial normal
 mode (target: all within 1.5x, because orientational averages are precomputed into
-the tables).  Run:  python bench/frame.py [--width 2048]
+the tables).  Then the scene filters (:mod:`renderer.kernels.filtering`): the head
+panorama and an eye disc of about the same pixel count, plain bilinear beside the
+anisotropic and the isotropic mipmap, each with its ratio to the memory floor, all
+interleaved in one run (target: the filtered head panorama and eye disc within 4x the
+floor).  Run:  python bench/frame.py [--width 2048]
 """
 
 from __future__ import annotations
@@ -102,7 +106,72 @@ def main(argv=None):
               f"memory floor {tf * 1e3:6.2f} ms | kernel/floor {tk / tf:5.2f}x "
               f"(medians {mk * 1e3:.2f} / {mf * 1e3:.2f} ms: {mk / mf:5.2f}x) | "
               f"twin/kernel {tt / tk:5.1f}x | max |kernel - twin| {err:.1e}")
+    bench_filters(a.width, a.repeat)
     bench_modes(a.width, a.repeat)
+
+
+def bench_filters(width, repeat):
+    """Head panorama and eye disc per scene filter, beside the memory floor, interleaved."""
+    from renderer.views import EyeDisc
+
+    field = fixed(49.0, 66.0, 3.0)
+    pose = Pose(37.0, 5.0, -3.0)
+    layout = load_layout("lateral")
+    inputs = pipeline.prepare(field, pose, layout, Legendre([0.7, 0.0, 0.1]))
+    inv = 1.0 / pipeline.visual_field_mean(inputs)
+    scene = dusk(width)
+    img = scene.image
+    t0 = time.perf_counter()
+    pyr = kernels.build_pyramid(img)
+    t_pyr = time.perf_counter() - t0
+    out = np.empty_like(img)
+    head = HeadPanorama(width)
+    tables = head.tables()
+    M = np.eye(3)
+    Q = np.ascontiguousarray(inputs.R_head_world.T)
+    size = int(round((width * width // 2) ** 0.5))
+    disc = EyeDisc(0, size)
+    dirs = np.ascontiguousarray(disc.directions(layout).reshape(-1, 3))
+    dout = np.empty((dirs.shape[0], 3), np.float32)
+    runs = []
+    for filt in ("bilinear", "trilinear", "mipmap"):
+        nt = kernels.ntaps_for(filt)
+        p = pyr if nt else None
+
+        def head_k(p=p, nt=nt):
+            kernels.composite_resampled(img, scene.north_col, *tables, M, Q, inputs.R_eye_head,
+                                        inputs.eye_params, inputs.b_eye, inputs.lut, -1, inv,
+                                        1.0, 0.25, out, pyramid=p, ntaps_max=nt)
+
+        def disc_k(p=p, nt=nt):
+            kernels.composite_dirs(img, scene.north_col, dirs, M, Q, inputs.R_eye_head,
+                                   inputs.eye_params, inputs.b_eye, inputs.lut, 0, inv, 1.0,
+                                   0.25, dout, pyramid=p, ntaps_max=nt, grid_width=size)
+
+        runs.append((f"head panorama {width}x{width // 2}, {filt}", head_k, []))
+        runs.append((f"eye disc {size}x{size}, {filt}", disc_k, []))
+
+    def floor():
+        np.copyto(out, img)
+
+    floors = []
+    for _, k, _ in runs:
+        k()
+    for _ in range(repeat):  # interleaved: a busy machine slows every entry alike
+        for _, k, ts in runs:
+            ts.append(best(k, 1))
+            floors.append(best(floor, 1))
+    tf, mf = min(floors), float(np.median(floors))
+    print(f"scene filters (pyramid built once per scene: {t_pyr * 1e3:.0f} ms); memory floor "
+          f"best {tf * 1e3:.2f} ms, median {mf * 1e3:.2f} ms; target filtered <= 4x floor:")
+    base = {}
+    for name, _, ts in runs:
+        tk, mk = min(ts), float(np.median(ts))
+        key = name.split(",")[0]
+        base.setdefault(key, mk)
+        print(f"  {name:42s} best {tk * 1e3:8.2f} ms ({tk / tf:6.2f}x floor) | median "
+              f"{mk * 1e3:8.2f} ms ({mk / mf:6.2f}x floor) | / bilinear (medians) "
+              f"{mk / base[key]:5.2f}x")
 
 
 def bench_modes(width, repeat):

@@ -64,3 +64,18 @@ def test_view_options_refused_with_the_wrong_view(extra, needle, tmp_path, capsy
     err = capsys.readouterr().err
     assert rc == 2 and needle in err and err.count("\n") == 1
     assert not (tmp_path / "x.png").exists()
+
+
+def test_filter_and_supersample_options(tmp_path, capsys):
+    """--filter and --supersample reach the view (byte-equal to the library's frame);
+    values outside the allowed set exit 2 with one line."""
+    from renderer.views import HeadPanorama
+
+    out = tmp_path / "h.png"
+    assert main(BASE + ["--view", "head-panorama", "--filter", "trilinear", "--supersample", "2",
+                        "--out", str(out)]) == 0, capsys.readouterr().err
+    assert np.array_equal(_read(out), _frame(HeadPanorama(64, filter="trilinear", supersample=2)))
+    rc = main(BASE + ["--view", "head-panorama", "--supersample", "0", "--out",
+                      str(tmp_path / "x.png")])
+    err = capsys.readouterr().err
+    assert rc == 2 and "supersample" in err and err.count("\n") == 1

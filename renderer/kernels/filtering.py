@@ -41,6 +41,9 @@ from .leaf import FASTMATH
 FILTERS = ("mipmap", "trilinear", "bilinear")
 #: Largest number of taps along the major axis of the anisotropic filter.
 NTAPS_MAX = 8
+#: Footprints whose major axis is at most this many texels are one level-0 bilinear read
+#: under every filter: one tap (s1 ≤ max(s2, 1)) with w = s1, w·LOD_SCALE < 1.
+SIMPLE_S1 = 1.0
 #: Footprint width → level: variance of the box pixel footprint (w²/12) equated to that
 #: of a level's box-plus-tent filter (scale²/4): scale = w/√3 (see the module notes).
 LOD_SCALE = 1.0 / math.sqrt(3.0)

@@ -14,11 +14,12 @@ import math
 import numpy as np
 from numba import get_num_threads, njit, prange
 
-from .filtering import _mip_pixel
+from .filtering import SIMPLE_S1, _mip_pixel
 from .layout import _fold, _tables
 from .leaf import FASTMATH
-from .rows import (RB_A, RB_B, RB_C, RB_UX, RB_UY, RB_UZ, ROW_BLOCK, _NROW, _item_order, _row_setup,
-                   _row_signal, _shared_group)
+from .rows import (RB_A, RB_ACC, RB_B, RB_C, RB_E1, RB_E2, RB_FRAC, RB_UX, RB_UY, RB_UZ,
+                   RB_VAL, ROW_BLOCK, _NROW, _item_order, _row_setup, _row_signal,
+                   _shared_group)
 
 
 #: atan(t) ≈ t·Σ a_k (t²)^k on |t| ≤ tan(π/8) (degree-9 Chebyshev interpolant in t², made
@@ -218,14 +219,73 @@ def _row_scene_jacobian(ce, se, caz, saz, Q, north_col, SW, SH, dcol, drow, X, Y
 
 
 @njit(cache=True, fastmath=FASTMATH, error_model="numpy")
-def _row_mip_modulate(flat, levels, scale, C, ntaps_max, X, Y, AX, AY, BX, BY, sig, inv_mean,
-                      gain, outside, acc, out_row):
+def _row_footprint_split(SW, SH, X, Y, AX, AY, BX, BY, X0, FX, Y0, FY, SIMPLE):
+    """Which pixels of a row are one level-0 bilinear read under the filter (footprint
+    major axis at most SIMPLE_S1 texels: the scene magnified or at its own scale),
+    and for those the bilinear coordinates as :func:`_row_scene_coords` gives them.
+    One vectorised loop; the rest go through ``filtering._mip_pixel``."""
+    fw = float(SW)
+    ylast = SH - 1.0
+    ytop = max(SH - 2.0, 0.0)
+    lim = SIMPLE_S1 * SIMPLE_S1
+    for j in range(X.shape[0]):
+        ax = AX[j]
+        ay = AY[j]
+        bx = BX[j]
+        by = BY[j]
+        p = ax * ax + bx * bx
+        r = ay * ay + by * by
+        q = ax * ay + bx * by
+        d = 0.5 * (p - r)
+        s1sq = 0.5 * (p + r) + math.sqrt(d * d + q * q)
+        SIMPLE[j] = 1.0 if s1sq <= lim else 0.0
+        xs = X[j] - 0.5
+        ys = Y[j] - 0.5
+        ys = 0.0 if ys < 0.0 else (ylast if ys > ylast else ys)
+        x0 = np.floor(xs)
+        FX[j] = xs - x0
+        X0[j] = x0 - fw * np.floor(x0 / fw)
+        y0 = np.floor(ys)
+        y0 = ytop if y0 > ytop else y0
+        Y0[j] = y0
+        FY[j] = ys - y0
+
+
+@njit(cache=True, fastmath=FASTMATH, error_model="numpy")
+def _row_mip_modulate(flat, levels, scale, C, ntaps_max, X, Y, AX, AY, BX, BY, X0, FX, Y0,
+                      FY, SIMPLE, sig, inv_mean, gain, outside, acc, out_row):
     """Footprint-filtered samples (:func:`renderer.kernels.filtering._mip_pixel`) at the
     coordinates of :func:`_row_scene_jacobian`, modulated as ``_modulate`` does, into one
-    flattened (W·C,) output row.  Scalar (the reads)."""
+    flattened (W·C,) output row; pixels :func:`_row_footprint_split` marks simple are
+    read as the plain bilinear path reads them (the same value ``_mip_pixel`` gives
+    them, without its footprint arithmetic).  Scalar (the reads)."""
+    SH = levels[0, 1]
+    SW = levels[0, 2]
+    rowlen = SW * C
     for j in range(sig.shape[0]):
-        _mip_pixel(flat, levels, scale, C, ntaps_max, X[j], Y[j], AX[j], AY[j], BX[j], BY[j],
-                   acc)
+        if SIMPLE[j] != 0.0:
+            x0 = int(X0[j])
+            x1 = x0 + 1
+            x1 = 0 if x1 >= SW else x1
+            y0 = int(Y0[j])
+            y1 = y0 + 1
+            y1 = SH - 1 if y1 > SH - 1 else y1
+            fx = FX[j]
+            fy = FY[j]
+            w00 = (1.0 - fx) * (1.0 - fy)
+            w01 = fx * (1.0 - fy)
+            w10 = (1.0 - fx) * fy
+            w11 = fx * fy
+            o00 = y0 * rowlen + x0 * C
+            o01 = y0 * rowlen + x1 * C
+            o10 = y1 * rowlen + x0 * C
+            o11 = y1 * rowlen + x1 * C
+            for c in range(C):
+                acc[c] = (flat[o00 + c] * w00 + flat[o01 + c] * w01 + flat[o10 + c] * w10
+                          + flat[o11 + c] * w11)
+        else:
+            _mip_pixel(flat, levels, scale, C, ntaps_max, X[j], Y[j], AX[j], AY[j], BX[j],
+                       BY[j], acc)
         s = sig[j]
         seen = s == s
         k = 1.0 + gain * (s * inv_mean - 1.0) if seen else outside
@@ -281,8 +341,12 @@ def _composite_resampled(scene, north_col, cos_el, sin_el, cos_az, sin_az, R_hea
                 _row_scene_jacobian(ce, sin_el[i], cos_az, sin_az, Q, north_col, SW, SH,
                                     2.0 * math.pi / W, math.pi / H, rb[RB_UX], rb[RB_UY],
                                     rb[RB_UZ], rb[RB_A], rb[RB_B], rb[RB_C])
+                _row_footprint_split(SW, SH, rb[RB_UX], rb[RB_UY], rb[RB_UZ], rb[RB_A],
+                                     rb[RB_B], rb[RB_C], rb[RB_E1], rb[RB_E2], rb[RB_VAL],
+                                     rb[RB_FRAC], rb[RB_ACC])
                 _row_mip_modulate(pyr_flat, pyr_levels, pyr_scale, C, ntaps_max, rb[RB_UX],
-                                  rb[RB_UY], rb[RB_UZ], rb[RB_A], rb[RB_B], rb[RB_C], sig,
+                                  rb[RB_UY], rb[RB_UZ], rb[RB_A], rb[RB_B], rb[RB_C], rb[RB_E1],
+                                  rb[RB_E2], rb[RB_VAL], rb[RB_FRAC], rb[RB_ACC], sig,
                                   inv_mean, gain, outside, acc, out[i].reshape(-1))
                 continue
             _row_scene_coords(ce, vz, cos_az, sin_az, Q, north_col, SW, SH, rb[RB_UX],

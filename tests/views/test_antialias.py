@@ -107,3 +107,46 @@ def test_default_filter_is_the_mipmap_and_bilinear_stays_available():
         EyeDisc(filter="box")
     with pytest.raises(MagretinaError, match="supersample"):
         HeadPanorama(64, supersample=0)
+
+
+@pytest.mark.parametrize("view", [HeadPanorama(32, supersample=4),
+                                  EyeDisc("left", 24, supersample=3),
+                                  PerspectiveScreen(20, 12, 100.0, yaw_deg=180.0, frame="head",
+                                                    supersample=2)])
+def test_supersampling_is_the_box_average_of_the_fine_frame(view):
+    """With supersample N the modulation of a pixel is the box average over its N × N
+    sub-pixels (the definition of a box-filtered pixel, common practice): on a uniform
+    scene (so the scene filter plays no part) the frame equals the N-times-finer frame
+    (``view.scaled(N)``, its sub-pixel grid) averaged over each pixel's sub-pixels inside
+    the view's footprint, to float32 precision; the field-of-view outline (lateral
+    layout) then takes intermediate values."""
+    from renderer.scene import uniform
+
+    layout = load_layout("lateral")
+    args = (fixed(50.0, 60.0, 5.0), Pose(30.0, 10.0, 0.0), layout, Legendre([0.7, 0.0, 0.4]))
+    scene = uniform(256, 0.4)
+    n = view.supersample
+    got = renderer.render(*args, view, scene=scene, gain=1.5, outside=0.25)[..., 0]
+    fine = view.scaled(n)
+    ref = renderer.render(*args, fine, scene=scene, gain=1.5, outside=0.25)[..., 0]
+    H, W = view.shape
+    inside = np.ones(fine.shape, bool) if fine.equirect else \
+        ~np.isnan(fine.directions(layout)[..., 0])
+    cnt = inside.reshape(H, n, W, n).sum(axis=(1, 3))
+    want = np.where(inside, ref, 0.0).reshape(H, n, W, n).sum(axis=(1, 3)) / np.maximum(cnt, 1)
+    centre = ~np.isnan(view.directions(layout)[..., 0])
+    np.testing.assert_allclose(got[centre], want[centre], atol=2e-6)
+    plain = renderer.render(*args, replace(view, supersample=1), scene=scene, gain=1.5,
+                            outside=0.25)[..., 0]
+    # along the outline, partly seen pixels take values between seen and unseen ones
+    assert np.abs(got - plain)[centre].max() > 0.05
+
+
+def test_pyramid_is_built_once_per_scene_and_locks_the_image():
+    """Scene.pyramid() returns the same object on every call and makes the image
+    read-only, so the pyramid cannot go stale by an in-place edit."""
+    scene = Scene(_checkerboard()[:64, :128].copy())
+    p = scene.pyramid()
+    assert scene.pyramid() is p
+    with pytest.raises(ValueError):
+        scene.image[0, 0, 0] = 0.5
