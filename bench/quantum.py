@@ -24,7 +24,7 @@ sys.path.insert(0, os.path.join(os.path.dirname(__file__), ".."))
 
 from renderer.response.harmonic import lebedev_grid  # noqa: E402
 from renderer.spin import load_pair, singlet_yield  # noqa: E402
-from renderer.spin.quantum import compute_information_table  # noqa: E402
+from renderer.response.information_table import compute_information_table  # noqa: E402
 
 
 def main():

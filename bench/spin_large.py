@@ -21,9 +21,10 @@ import time
 
 import numpy as np
 
+from renderer.response.spin_table import compute_table
 from renderer.spin import load_pair, singlet_yield
 from renderer.spin.large import radical_spectrum, separable_binned, separable_direct
-from renderer.spin.planner import EIGH_S_PER_N3, compute_table, plan
+from renderer.spin.planner import EIGH_S_PER_N3, plan
 from renderer.spin.semiclassical import singlet_yield_semiclassical
 
 

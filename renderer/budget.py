@@ -22,10 +22,11 @@ nothing.
 
 from __future__ import annotations
 
+import math
 import os
 from dataclasses import dataclass, field
 
-from .errors import MagretinaError
+from .errors import MagretinaError, check_range
 
 MEMORY_ENV = "MAGRETINA_MAX_MEMORY_GB"
 FRAMES_ENV = "MAGRETINA_MAX_FRAMES"
@@ -236,8 +237,6 @@ def check_frame_count(what, n_frames):
 
 def check_headings(what, step_deg):
     """The number of headings of a 360-degree grid of ``step_deg``; refuses too many."""
-    import math
-
     n = math.ceil(360.0 / float(step_deg))
     if n > MAX_HEADINGS:
         raise MagretinaError(f"{what} = {step_deg:g}: gives {n} headings; at most {MAX_HEADINGS} "
@@ -247,8 +246,6 @@ def check_headings(what, step_deg):
 
 def check_finite(option, value, lo=0.0, lo_open=True, unit=""):
     """``value`` as a finite float above ``lo`` (infinity refused); the message names it."""
-    from .errors import check_range
-
     v = check_range(option, value, lo, None, lo_open=lo_open, unit=unit)
     if v == float("inf"):
         raise MagretinaError(f"{option} = {value!r}: must be a finite number")

@@ -9,10 +9,13 @@ become one line on stderr and exit status 2, never a traceback.
 
 from __future__ import annotations
 
+import argparse
 import importlib
 import sys
 
+from .commands._common import MagretinaParser
 from .errors import MagretinaError
+from .version import __version__
 
 #: Subcommand modules, in the order they appear in ``magretina --help``.
 COMMANDS = [
@@ -31,9 +34,6 @@ COMMANDS = [
 
 
 def build_parser() -> argparse.ArgumentParser:
-    from . import __version__
-    from .commands._common import MagretinaParser
-
     parser = MagretinaParser(
         prog="magretina",
         description="Hypothesis stimuli and predictions for a light-dependent radical-pair "

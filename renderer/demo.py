@@ -16,9 +16,26 @@ import os
 import time
 
 import numpy as np
+from PIL import Image, ImageDraw
+from tqdm import tqdm
 
+from . import pipeline
+from .composite import pattern_grey, to_uint8_srgb
 from .defaults import DEFAULT_GAIN
+from .display import SRGB8
+from .dither import frame_seed, quantise
 from .errors import MagretinaError
+from .eye import load_layout
+from .field import igrf
+from .io import (atomic_write_bytes, atomic_write_json, atomic_write_text, display_png_bytes,
+                 png_bytes, write_srgb8_codes)
+from .pngmeta import label_chunks
+from .pose import Pose
+from .provenance import frame_params
+from .response import Legendre
+from .scene import dusk
+from .version import __version__
+from .views import EyeDisc, HeadPanorama, WorldPanorama
 
 MARKER = ".magretina-demo.json"
 
@@ -55,8 +72,6 @@ def _prepare_folder(out_dir, force):
 
 
 def _label(img_u8, text):
-    from PIL import Image, ImageDraw
-
     im = Image.fromarray(img_u8)
     d = ImageDraw.Draw(im)
     d.rectangle([0, 0, 8 + 7 * len(text), 16], fill=(0, 0, 0))
@@ -72,23 +87,6 @@ def run_demo(out_dir="outputs/demo", width=1024, force=False, progress=True, dis
     ``dither_seed`` choose the stimulus encoding (see :mod:`renderer.dither`); every PNG
     carries text chunks describing what made it.
     """
-    from tqdm import tqdm
-
-    import renderer
-    from .composite import pattern_grey, to_uint8_srgb
-    from .display import SRGB8
-    from .dither import frame_seed, quantise
-    from .eye import load_layout
-    from .field import igrf
-    from .io import (atomic_write_bytes, atomic_write_json, atomic_write_text, display_png_bytes,
-                     write_srgb8_codes)
-    from .pngmeta import label_chunks
-    from .provenance import frame_params
-    from .pose import Pose
-    from .response import Legendre
-    from .scene import dusk
-    from .views import EyeDisc, HeadPanorama, WorldPanorama
-
     t0 = time.time()
     _prepare_folder(out_dir, force)
     field = igrf(SITE["lat_deg"], SITE["lon_deg"], SITE["alt_km"], SITE["date"])
@@ -114,20 +112,20 @@ def run_demo(out_dir="outputs/demo", width=1024, force=False, progress=True, dis
     for yaw in tqdm(HEADINGS_DEG, desc="demo headings", disable=not progress, unit="frame"):
         pose = Pose(yaw_deg=yaw)
         tag = f"heading{yaw:03d}"
-        img = renderer.render(field, pose, layout, response, world, scene=scene, gain=GAIN)
+        img = pipeline.render(field, pose, layout, response, world, scene=scene, gain=GAIN)
         u8 = save(f"world_{tag}.png", img, world, pose,
                   f"world panorama at heading {yaw} deg on the dusk scene")
         thumbs.append(_label(u8[::4, ::4].copy(), f"heading {yaw} deg"))
-        sig, mean = renderer.render_signal(field, pose, layout, response, world)
+        sig, mean = pipeline.render_signal(field, pose, layout, response, world)
         save(f"pattern_{tag}.png", pattern_grey(sig, mean, GAIN), world, pose,
              f"the modulation alone on uniform grey, heading {yaw} deg")
         for eye in ("left", "right"):
             dview = EyeDisc(eye, size=width // 3)
-            disc = renderer.render(field, pose, layout, response, dview, scene=scene, gain=GAIN)
+            disc = pipeline.render(field, pose, layout, response, dview, scene=scene, gain=GAIN)
             save(f"eye_{eye}_{tag}.png", disc, dview, pose,
                  f"{eye} eye's field at heading {yaw} deg")
     hview = HeadPanorama(width)
-    head = renderer.render(field, Pose(0.0), layout, response, hview, scene=scene, gain=GAIN)
+    head = pipeline.render(field, Pose(0.0), layout, response, hview, scene=scene, gain=GAIN)
     save("head_heading000.png", head, hview, Pose(0.0), "head-frame panorama at heading 0 deg")
     rows = [np.concatenate(thumbs[i:i + 2], axis=1) for i in range(0, len(thumbs), 2)]
     sheet = np.concatenate(rows, axis=0)
@@ -150,7 +148,7 @@ def run_demo(out_dir="outputs/demo", width=1024, force=False, progress=True, dis
         "encodings": {"*.png": "codes of the display above (default 8-bit sRGB, IEC "
                                "61966-2-1, sRGB chunk); contact_sheet.png is a labelled "
                                "8-bit sRGB figure"},
-        "magretina_version": renderer.__version__,
+        "magretina_version": __version__,
     }
     atomic_write_json(os.path.join(out_dir, "demo.json"), info)
     files.append("demo.json")

@@ -27,8 +27,11 @@ import os
 from dataclasses import dataclass, field
 
 import numpy as np
+from scipy.interpolate import PchipInterpolator
 
+from .composite import linear_to_srgb, srgb_to_linear
 from .errors import MagretinaError
+from .inputs import read_csv_rows
 
 KINDS = ("srgb", "gamma", "table")
 BITS = (8, 10, 16)
@@ -85,8 +88,6 @@ class Display:
 
     def relative_curve(self, x) -> np.ndarray:
         """Normalised transfer of the analytic kinds: code/max in [0, 1] -> relative L."""
-        from .composite import srgb_to_linear
-
         x = np.asarray(x, np.float64)
         if self.kind == "srgb":
             return srgb_to_linear(x)
@@ -100,8 +101,6 @@ class Display:
         plain 8-bit sRGB output bit for bit); ``gamma``: max·v^(1/gamma); ``table``:
         the inverse of the interpolated table, linear in luminance between integer
         codes (:meth:`linear_code`)."""
-        from .composite import linear_to_srgb
-
         v = np.clip(np.asarray(lin, np.float64), 0.0, 1.0)
         if self.kind == "srgb":
             return linear_to_srgb(v) * self.max_code
@@ -229,8 +228,6 @@ def read_table(path) -> tuple[np.ndarray, np.ndarray]:
     ``#`` lines are comments.  Codes must be integers and strictly increasing,
     luminance strictly increasing; the message names the file and row (line).
     """
-    from .inputs import read_csv_rows
-
     p = os.fspath(path)
     if not os.path.isfile(p):
         raise MagretinaError(f"display table {p}: no such file")
@@ -283,8 +280,6 @@ def read_table(path) -> tuple[np.ndarray, np.ndarray]:
 def table_lut(path, bits) -> tuple[np.ndarray, float, bool]:
     """(3, 2**bits) per-channel luminance above black at every code, black (cd/m²), and
     whether the table was measured per channel."""
-    from scipy.interpolate import PchipInterpolator
-
     codes, lum = read_table(path)
     top = (1 << bits) - 1
     p = os.fspath(path)

@@ -8,6 +8,8 @@ This module is not for programming errors: those stay ordinary exceptions.
 
 from __future__ import annotations
 
+import difflib
+
 
 class MagretinaError(ValueError):
     """A user-facing input or configuration error (exit status 2 on the CLI)."""
@@ -62,8 +64,6 @@ def did_you_mean(word, candidates, n=1) -> str:
     Uses :func:`difflib.get_close_matches` (ratio cutoff 0.6, its default) on the
     lower-cased strings, so a change of case alone always finds its match.
     """
-    import difflib
-
     cands = [str(c) for c in candidates]
     low = {c.lower(): c for c in cands}
     hits = difflib.get_close_matches(str(word).lower(), list(low), n=n)

@@ -11,7 +11,12 @@ draws (Pillow); it does not render or write files.
 
 from __future__ import annotations
 
+import textwrap
+
 import numpy as np
+from PIL import Image, ImageDraw
+
+from .composite import to_uint8_srgb
 
 BAND_PX = 64
 
@@ -32,12 +37,6 @@ def annotate(u8, heading, eyes, m_range, caution, grey=0.5) -> np.ndarray:
     -------
     (H + band, W, 3) uint8; the band is at least ``BAND_PX`` high.
     """
-    from PIL import Image, ImageDraw
-
-    from .composite import to_uint8_srgb
-
-    import textwrap
-
     H, W = u8.shape[:2]
     # Pillow's default bitmap font is about 6 px per character and 11 px per line.
     lines = textwrap.wrap(caution, max(20, (W - 12) // 6))

@@ -15,7 +15,14 @@ from __future__ import annotations
 
 import csv
 import io
+import json
 import os
+import stat
+import tomllib
+import zipfile
+
+import numpy as np
+import png
 
 from .errors import MagretinaError
 
@@ -54,8 +61,6 @@ def read_bytes(path, what="file", max_bytes=MAX_TEXT_BYTES) -> bytes:
         st = os.stat(p)
     except OSError as exc:
         raise MagretinaError(f"{_where(what, p)}: cannot read ({exc.strerror or exc})") from None
-    import stat
-
     if not stat.S_ISREG(st.st_mode):
         raise MagretinaError(f"{_where(what, p)}: not a regular file")
     if st.st_size > max_bytes:
@@ -133,8 +138,6 @@ def toml_depth(text: str) -> int:
 
 def parse_toml(text: str, what, path) -> dict:
     """Parse TOML text, refusing deep nesting first; errors name the file."""
-    import tomllib
-
     d = toml_depth(text)
     if d > MAX_TOML_DEPTH:
         raise MagretinaError(f"{_where(what, path)}: tables/arrays nested {d} deep; at most "
@@ -183,8 +186,6 @@ def read_csv_rows(path, what="CSV file", max_bytes=MAX_TEXT_BYTES) -> list[list[
 
 def read_json(path, what="JSON file", max_bytes=MAX_TEXT_BYTES):
     """A JSON document from a UTF-8 file; errors name the file."""
-    import json
-
     text = read_text_file(path, what, max_bytes)
     try:
         return json.loads(text)
@@ -209,10 +210,6 @@ def load_npz_checked(path, what="table", required=(), max_bytes=MAX_TABLE_BYTES)
     -------
     dict of str -> ndarray
     """
-    import zipfile
-
-    import numpy as np
-
     p = os.fspath(path)
     data = read_bytes(p, what, max_bytes)
     if not data:
@@ -240,7 +237,7 @@ def image_size(path, what="image", max_pixels=MAX_IMAGE_PIXELS) -> tuple[int, in
     bomb (a small file declaring a huge image) is refused before any pixel buffer
     exists.
     """
-    from PIL import Image
+    from PIL import Image  # deferred: Pillow loads only when an image is read
 
     p = os.fspath(path)
     if not os.path.isfile(p):
@@ -265,6 +262,18 @@ def image_size(path, what="image", max_pixels=MAX_IMAGE_PIXELS) -> tuple[int, in
     return w, h
 
 
+def read_png16(path):
+    """Read a PNG with pypng if it is 16-bit (Pillow would reduce it to 8-bit); else None."""
+    with open(path, "rb") as fh:
+        head = fh.read(33)
+    if head[:8] != b"\x89PNG\r\n\x1a\n" or head[24] != 16:
+        return None
+    W, H, rows, info = png.Reader(filename=path).read()
+    planes = info["planes"]
+    a = np.vstack([np.asarray(r, dtype=np.uint16) for r in rows]).reshape(H, W, planes)
+    return a
+
+
 def open_image_checked(path, what="image", max_pixels=MAX_IMAGE_PIXELS):
     """Decode an image after :func:`image_size` accepted its header.
 
@@ -273,21 +282,17 @@ def open_image_checked(path, what="image", max_pixels=MAX_IMAGE_PIXELS):
     ndarray
         (H, W[, C]) as stored (uint8, uint16 or float); 16-bit PNGs keep 16 bits.
     """
-    import numpy as np
-
     p = os.fspath(path)
     image_size(p, what, max_pixels)
-    from .io import _read_png16
-
     try:
-        img = _read_png16(p)
+        img = read_png16(p)
         if img is None:
-            from PIL import Image
+            from PIL import Image  # deferred: Pillow loads only when an image is read
 
             old = Image.MAX_IMAGE_PIXELS
             Image.MAX_IMAGE_PIXELS = max_pixels
             try:
-                import imageio.v3 as iio
+                import imageio.v3 as iio  # deferred: imageio loads only when decoding
 
                 img = iio.imread(p)
             finally:

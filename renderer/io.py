@@ -1,21 +1,30 @@
 """Reading and writing files safely: atomic writes, PNG/JSON encoders, image decoding.
 
 Every output goes to a temporary name in the target folder and is renamed into
-place (``os.replace``), so an interrupted run never leaves a partial file visible.
+place (``os.replace``), so an interrupted run never leaves a partial file visible:
+:func:`atomic_write_bytes` (and its text/JSON forms) for bytes in memory,
+:func:`atomic_path` for writers that need a file name (video encoders, matplotlib).
+This is the package's only atomic writer.
 Images are decoded here and turned into linear light by :mod:`renderer.composite`.
 This module does not decide *where* outputs go (see the study runner and CLI).
 """
 
 from __future__ import annotations
 
+import contextlib
+import hashlib
 import io
 import json
 import os
 import tempfile
 
 import numpy as np
+import png
 
+from . import pngmeta
+from .composite import from_uint8_srgb, to_uint8_srgb, to_uint16_linear
 from .errors import MagretinaError
+from .inputs import open_image_checked
 
 
 def _read_umask() -> int:
@@ -48,17 +57,34 @@ def fsync_folder(folder) -> None:
         os.close(fd)
 
 
-def atomic_write_bytes(path, data: bytes) -> str:
-    """Write ``data`` to ``path`` atomically; returns the path."""
+@contextlib.contextmanager
+def atomic_path(path, suffix=""):
+    """A temporary file name beside ``path``, renamed onto ``path`` when the block ends.
+
+    For writers that need a file name rather than bytes.  If the block raises, the
+    temporary file is removed and ``path`` is untouched.
+
+    Parameters
+    ----------
+    path : path-like
+        Final name (its folder is created).
+    suffix : str
+        Appended to the temporary name after ``.tmp`` (e.g. ``".mp4"``, so an encoder
+        that picks its format by extension sees the right one).
+
+    Yields
+    ------
+    str
+        The temporary path to write.
+    """
     path = os.fspath(path)
     folder = os.path.dirname(os.path.abspath(path))
     os.makedirs(folder, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(prefix="." + os.path.basename(path) + ".", suffix=".tmp", dir=folder)
+    fd, tmp = tempfile.mkstemp(prefix="." + os.path.basename(path) + ".", suffix=".tmp" + suffix,
+                               dir=folder)
+    os.close(fd)
     try:
-        with os.fdopen(fd, "wb") as fh:
-            fh.write(data)
-            fh.flush()
-            os.fsync(fh.fileno())
+        yield tmp
         os.chmod(tmp, _FILE_MODE)
         os.replace(tmp, path)
         fsync_folder(folder)
@@ -68,6 +94,16 @@ def atomic_write_bytes(path, data: bytes) -> str:
         except OSError:
             pass
         raise
+
+
+def atomic_write_bytes(path, data: bytes) -> str:
+    """Write ``data`` to ``path`` atomically (flushed to disk first); returns the path."""
+    path = os.fspath(path)
+    with atomic_path(path) as tmp:
+        with open(tmp, "wb") as fh:
+            fh.write(data)
+            fh.flush()
+            os.fsync(fh.fileno())
     return path
 
 
@@ -98,23 +134,19 @@ def png_bytes(array, chunks=()) -> bytes:
     a = np.asarray(array)
     buf = io.BytesIO()
     if a.dtype == np.uint16:
-        import png
-
         H, W = a.shape[:2]
         C = 1 if a.ndim == 2 else a.shape[2]
         png.Writer(W, H, greyscale=(C == 1), alpha=(C in (2, 4)), bitdepth=16,
                    compression=6).write(buf, a.reshape(H, W * C))
     elif a.dtype == np.uint8:
-        import imageio.v3 as iio
+        import imageio.v3 as iio  # deferred: imageio and its plugins load only when encoding
 
         iio.imwrite(buf, a, extension=".png")
     else:
         raise TypeError(f"png_bytes needs uint8 or uint16, got {a.dtype}")
     data = buf.getvalue()
     if chunks:
-        from .pngmeta import insert_chunks
-
-        data = insert_chunks(data, list(chunks))
+        data = pngmeta.insert_chunks(data, list(chunks))
     return data
 
 
@@ -139,8 +171,6 @@ def display_png_bytes(codes, display, labels=()) -> bytes:
         a measured table: no colour chunk, the codes belong to that display only)
     labels : text chunks (:func:`renderer.pngmeta.label_chunks`)
     """
-    from . import pngmeta
-
     colour = []
     if display.kind == "srgb":
         colour = pngmeta.srgb_chunks()
@@ -156,46 +186,22 @@ def display_png_bytes(codes, display, labels=()) -> bytes:
 def linear16_png_bytes(lin, labels=()) -> bytes:
     """16-bit linear-light PNG bytes (code / 65535 = relative linear light), declared
     linear by gAMA 1.0 and cICP."""
-    from .composite import to_uint16_linear
-    from .pngmeta import linear_chunks
-
-    return png_bytes(to_uint16_linear(lin), linear_chunks() + list(labels))
-
-
-def _read_png16(path):
-    """Read a PNG with pypng if it is 16-bit (Pillow would reduce it to 8-bit); else None."""
-    import png
-
-    with open(path, "rb") as fh:
-        head = fh.read(33)
-    if head[:8] != b"\x89PNG\r\n\x1a\n" or head[24] != 16:
-        return None
-    W, H, rows, info = png.Reader(filename=path).read()
-    planes = info["planes"]
-    a = np.vstack([np.asarray(r, dtype=np.uint16) for r in rows]).reshape(H, W, planes)
-    return a
+    return png_bytes(to_uint16_linear(lin), pngmeta.linear_chunks() + list(labels))
 
 
 def write_png8_srgb(path, lin, labels=()) -> str:
     """Write a linear float image as an 8-bit sRGB PNG (sRGB chunk), atomically."""
-    from . import pngmeta
-    from .composite import to_uint8_srgb
-
     return atomic_write_bytes(path, png_bytes(to_uint8_srgb(lin),
                                               pngmeta.srgb_chunks() + list(labels)))
 
 
 def write_srgb8_codes(path, u8, labels=()) -> str:
     """Write an 8-bit sRGB-coded image (already quantised) with the sRGB chunk, atomically."""
-    from . import pngmeta
-
     return atomic_write_bytes(path, png_bytes(np.asarray(u8, np.uint8),
                                               pngmeta.srgb_chunks() + list(labels)))
 
 
 def sha256_hex(data: bytes) -> str:
-    import hashlib
-
     return hashlib.sha256(data).hexdigest()
 
 
@@ -210,9 +216,6 @@ def read_image_linear(path) -> np.ndarray:
     8-bit images are taken as sRGB-encoded; 16-bit images as linear values (the
     convention of magretina's own 16-bit outputs).  Alpha is dropped.
     """
-    from .composite import from_uint8_srgb
-    from .inputs import open_image_checked
-
     p = os.fspath(path)
     img = open_image_checked(p, "image")
     img = np.asarray(img)

@@ -23,6 +23,8 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
+from scipy.spatial import cKDTree
+from scipy.stats import qmc
 
 from .errors import MagretinaError, check_range
 
@@ -172,8 +174,6 @@ def sphere_poisson_disc(n, rng) -> np.ndarray:
     distance.  The spacing is exact near +x and stretched by up to 1/cos²(α/2) at
     angle α from it (the projection preserves area, not shape).  Returns (m, 3).
     """
-    from scipy.stats import qmc
-
     # scipy's sampler reaches about 0.60 points per r² of area; aim 15 % above n.
     r_plane = math.sqrt(0.60 * (4.0 * math.pi) / (1.15 * n))
     eng = qmc.PoissonDisk(d=2, radius=r_plane / 4.0, ncandidates=12, seed=rng)
@@ -289,8 +289,6 @@ def _pools(layout, spec, eye_index, dirs_head):
     N = eye_index.shape[0]
     if spec.pool_radius_deg <= 0:
         return np.arange(N, dtype=np.int32), eye_index.copy()
-    from scipy.spatial import cKDTree
-
     rho = math.radians(spec.pool_radius_deg)
     # centres whose Voronoi cells have the solid angle 2π(1 − cos ρ) of a cap of radius ρ
     n_centres = max(1, int(round(2.0 / (1.0 - math.cos(rho)))))

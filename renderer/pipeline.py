@@ -19,15 +19,16 @@ import numpy as np
 from . import kernels
 from .defaults import DEFAULT_GAIN
 from .errors import MagretinaError
-from .response.base import LUT_SIZE
+from .eye.alignment import Normal
+from .response.base import LUT_SIZE, PRODUCTS
+from .scene import Scene, dusk
+from .views.panorama import HeadPanorama
 
 #: Head-frame grid used for the visual-field mean (width; height is half).  Measured
 #: against a 4096-wide grid for the lateral, frontal and tawny-owl layouts, the 360-wide
 #: grid's mean is within 3.5e-5 (relative): far below one 8-bit step of any modulation,
 #: at a quarter of the cost of a 720-wide grid.
 MEAN_GRID_WIDTH = 360
-
-PRODUCTS = ("singlet", "triplet")
 
 
 @dataclass(frozen=True)
@@ -88,8 +89,6 @@ def _check_product(product):
 def response_lut(response, product="singlet", n=LUT_SIZE, alignment=None) -> np.ndarray:
     """The receptor signal table: f, or 1 − f if the triplet product drives vision,
     after the alignment hypothesis's averaging (default: none)."""
-    from .eye.alignment import Normal
-
     _check_product(product)
     al = Normal() if alignment is None else alignment
     lut = _cached("lut", response, (al, int(n)),
@@ -181,7 +180,25 @@ def _pick(view, layout) -> int:
     return -1 if view.pick is None else layout.eye_index(view.pick)
 
 
-def _signal_map(inputs, view, layout, lut) -> np.ndarray:
+def signal_map(inputs, view, layout, lut=None) -> np.ndarray:
+    """The receptor signal over a view from already prepared inputs.
+
+    Parameters
+    ----------
+    inputs : ShotInputs
+        From :func:`prepare` (field in each eye's frame, alignment tables).
+    view : View
+    layout : Layout
+        The layout ``inputs`` were prepared for.
+    lut : ndarray (n,), optional
+        Signal table in cos θ; default ``inputs.lut`` (the prepared product).
+
+    Returns
+    -------
+    ndarray, (H, W) float64
+        NaN where no eye sees (as :func:`render_pattern`).
+    """
+    lut = inputs.lut if lut is None else lut
     H, W = view.shape
     M = np.ascontiguousarray(_R_head_view(view, inputs))
     pick = _pick(view, layout)
@@ -199,8 +216,6 @@ def _signal_map(inputs, view, layout, lut) -> np.ndarray:
 
 def visual_field_mean(inputs: ShotInputs, width=MEAN_GRID_WIDTH) -> float:
     """Solid-angle-weighted mean signal over every direction some eye sees."""
-    from .views.panorama import HeadPanorama
-
     view = HeadPanorama(width)
     s = np.empty(view.shape)
     kernels.pattern_equirect(*view.tables(), np.eye(3), inputs.R_eye_head, inputs.eye_params,
@@ -234,7 +249,7 @@ def render_pattern(field, pose, layout, response, view, eye_offsets=None) -> np.
     if eye_offsets:
         layout = layout.moved(eye_offsets)
     inputs = prepare(field, pose, layout, response, "singlet")
-    return _signal_map(inputs, view, layout, inputs.lut)
+    return signal_map(inputs, view, layout)
 
 
 def render_signal(field, pose, layout, response, view, product="singlet", eye_offsets=None):
@@ -242,7 +257,7 @@ def render_signal(field, pose, layout, response, view, product="singlet", eye_of
     if eye_offsets:
         layout = layout.moved(eye_offsets)
     inputs = prepare(field, pose, layout, response, product)
-    return _signal_map(inputs, view, layout, inputs.lut), visual_field_mean(inputs)
+    return signal_map(inputs, view, layout), visual_field_mean(inputs)
 
 
 def render(field, pose, layout, response, view, scene=None, gain=DEFAULT_GAIN, product="singlet",
@@ -271,8 +286,6 @@ def render(field, pose, layout, response, view, scene=None, gain=DEFAULT_GAIN, p
     ndarray, (H, W, 3) float32 linear light in [0, 1]
         (Pixels outside a non-rectangular view's footprint are 0.)
     """
-    from .scene import Scene, dusk
-
     if scene is None:
         scene = dusk(max(2048, view.shape[1] if view.equirect else 2048))
     elif not isinstance(scene, Scene):

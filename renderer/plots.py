@@ -10,20 +10,24 @@ compute predictions; it draws what :mod:`renderer.predict` and the pipeline give
 from __future__ import annotations
 
 import io
+import textwrap
 
 import numpy as np
 
+from . import kernels, pipeline
 from .errors import MagretinaError
-from .io import atomic_write_bytes
+from .io import atomic_path, atomic_write_bytes
+from .views import HeadPanorama, WorldPanorama
 
 CAPTION = "model prediction, not a measurement"
 
 
-def _figure(figsize):
+def _figure(figsize, layout="constrained"):
+    # deferred: matplotlib (~0.5 s) loads only when a figure is drawn
     from matplotlib.backends.backend_agg import FigureCanvasAgg
     from matplotlib.figure import Figure
 
-    fig = Figure(figsize=figsize, dpi=100, layout="constrained")
+    fig = Figure(figsize=figsize, dpi=100, layout=layout)
     FigureCanvasAgg(fig)
     return fig
 
@@ -43,13 +47,9 @@ def plot_response(response, path, product="singlet", n=361, title=None):
     path : output PNG
     product : "singlet" or "triplet" (plots the signal s = f or 1 − f)
     """
-    from .pipeline import response_lut
-
     theta = np.linspace(0.0, np.pi, n)
-    lut = response_lut(response, product, 4097)
-    from .kernels import lut_lookup_numpy
-
-    s = lut_lookup_numpy(lut, np.cos(theta))
+    lut = pipeline.response_lut(response, product, 4097)
+    s = kernels.lut_lookup_numpy(lut, np.cos(theta))
     fig = _figure((9, 4))
     ax1 = fig.add_subplot(1, 2, 1, projection="polar")
     th_full = np.concatenate([theta, 2 * np.pi - theta[::-1]])
@@ -107,9 +107,6 @@ def plot_pattern(field, pose, layout, response, path, width=720, frame="head", p
     frame : "head" or "world" panorama
     gain : modulation gain, m = gain·(s/⟨s⟩ − 1)
     """
-    from . import pipeline
-    from .views import HeadPanorama, WorldPanorama
-
     if frame not in ("head", "world"):
         raise MagretinaError(f"plot frame = {frame!r}: allowed head, world")
     view = HeadPanorama(width) if frame == "head" else WorldPanorama(width)
@@ -206,12 +203,7 @@ def plot_metric_sweep(x, series, path, xlabel="sweep value", ylabel="metric", ti
 
 def wrap_title(text, width=60) -> str:
     """A title broken into lines of at most ``width`` characters, so none is clipped."""
-    import textwrap
-
     return "\n".join(textwrap.wrap(str(text), width)) or str(text)
-
-
-__all__ = ["plot_response", "plot_pattern", "plot_precision", "plot_metric_sweep", "CAPTION"]
 
 
 def plot_information(table, path, title=None):
@@ -219,7 +211,7 @@ def plot_information(table, path, title=None):
 
     Parameters
     ----------
-    table : renderer.spin.quantum.InformationTable
+    table : renderer.response.information_table.InformationTable
         Lebedev nodes in the molecular frame with 2×2 informations in the tangent frame.
     path : output PNG
 
@@ -276,3 +268,47 @@ def plot_resonance_spectrum(spec, path):
                  f"({CAPTION})", fontsize=9)
     ax.legend(fontsize=8)
     return _save(fig, path, dpi=120)
+
+
+def plot_spin_table(table, path, note=CAPTION):
+    """A full-sphere singlet-yield table and its axial average, side by side.
+
+    Parameters
+    ----------
+    table : renderer.response.spin_table.SpinTable
+        Φ_S over field directions in the molecular frame at |B| = ``table.field_T``.
+    path : output file; the format follows its suffix (PNG if none)
+    note : str
+        Caution printed under the panels.
+
+    Returns
+    -------
+    str
+        The path written (atomically).
+    """
+    path = str(path)
+    lut = table.sphere_lut(181, 361)
+    axial = table.axial_average()
+    fig = _figure((11, 4.2), layout=None)
+    ax1, ax2 = fig.subplots(1, 2, gridspec_kw={"width_ratios": [2, 1]})
+    im = ax1.imshow(lut, extent=[-180, 180, 180, 0], aspect="auto", cmap="viridis")
+    ax1.set_xlabel("field azimuth phi in molecular frame (deg, from x towards y)")
+    ax1.set_ylabel("field polar angle theta from molecular z (deg)")
+    ax1.set_title(f"singlet yield at |B| = {table.field_T * 1e6:g} µT")
+    fig.colorbar(im, ax=ax1, label="Phi_S")
+    th = np.linspace(0, 180, 361)
+    ax2.plot(th, axial(np.cos(np.radians(th))))
+    ax2.set_xlabel("theta (deg)")
+    ax2.set_ylabel("Phi_S averaged over rotation about z")
+    ax2.set_title("axial average")
+    fig.text(0.5, 0.005, note, ha="center", va="bottom", fontsize=7)
+    fig.tight_layout(rect=(0, 0.03, 1, 1))
+    fmt = path.rsplit(".", 1)[-1] if "." in path.rsplit("/", 1)[-1] else "png"
+    with atomic_path(path) as tmp:
+        fig.savefig(tmp, dpi=110, format=fmt)
+    return path
+
+
+__all__ = ["plot_response", "plot_pattern", "plot_precision", "plot_metric_sweep",
+           "plot_spin_table", "plot_information", "plot_resonance_spectrum", "wrap_title",
+           "CAPTION"]

@@ -22,6 +22,10 @@ import os
 import struct
 import zlib
 
+import numpy as np
+
+from .version import __version__
+
 SIGNATURE = b"\x89PNG\r\n\x1a\n"
 PARAMS_KEYWORD = "magretina parameters"
 #: Chromaticities of sRGB (IEC 61966-2-1) as cHRM stores them (×100000): white x, y,
@@ -86,8 +90,6 @@ def creation_time(now=None) -> str:
 
 def compact_json(obj) -> str:
     def conv(o):
-        import numpy as np
-
         if isinstance(o, np.ndarray):
             return o.tolist()
         if isinstance(o, (np.floating, np.integer)):
@@ -112,9 +114,7 @@ def label_chunks(description, caution, params=None, source=None, warning=None,
     created : True for the current time, a string to use as is, False to leave it out
         (study frames: a rerun must give the same bytes)
     """
-    import renderer
-
-    out = [text_chunk("Software", f"magretina {renderer.__version__}"),
+    out = [text_chunk("Software", f"magretina {__version__}"),
            text_chunk("Description", description),
            text_chunk("Source", source or "computed by magretina (a model, no camera or "
                                           "measurement)"),

@@ -1,4 +1,4 @@
-"""A static HTML report of a finished study, and a headless-browser check of it.
+"""A static HTML report of a finished study.
 
 :func:`build_report` reads a study folder written by the study runner
 (``study.json``, ``manifest.jsonl``, ``metrics.csv``, the frame files) and writes
@@ -7,10 +7,8 @@ resolved configuration), a contact sheet of thumbnails each linking to its full
 image, plots of the metrics against every sweep axis (and against the frame index
 within shots), and the metrics table.  Thumbnails and plots are embedded as PNG
 data URIs and the page has no scripts, fonts or links outside the folder, so it
-opens from disk with no server and no network.  :func:`browser_check` loads a page
-in headless Chromium over the DevTools protocol on a pipe (no extra packages) and
-reports console errors and whether every image decoded.  This module does not run
-studies.
+opens from disk with no server and no network.  Checking the page in a headless
+browser is :mod:`renderer.browser`.  This module does not run studies.
 """
 
 from __future__ import annotations
@@ -23,14 +21,22 @@ import json
 import math
 import os
 import shutil
-import subprocess
 import tempfile
-import time
 
 import numpy as np
+from PIL import Image
 
+from . import plots
+from .defaults import DEFAULT_GAIN
 from .errors import MagretinaError
+from .field import fixed
 from .io import atomic_write_text
+from .mosaic import build_mosaic
+from .orientation.report import html_section
+from .pose import Pose
+from .predict import fisher_information, options_to_models
+from .study.build import build_layout, build_response
+from .vocabulary import label, latlon_text, split
 
 REPORT_NAME = "report.html"
 CAUTION = ("The images and numbers in this report are predictions of a model under the stated "
@@ -115,8 +121,6 @@ def _data_uri_png(data: bytes) -> str:
 
 
 def _thumbnail(path, px):
-    from PIL import Image
-
     with Image.open(path) as im:
         im = im.convert("RGB") if im.mode not in ("RGB", "L") else im
         im.thumbnail((px, px))
@@ -164,8 +168,6 @@ def _axis_labels(study):
 
 def _shot_conditions(study):
     """shot_id -> "name = label, ..." of the swept values of that shot (readable)."""
-    from .vocabulary import label
-
     varied = {n for n, _k, _l, _num in _axis_labels(study)}
     axes = [a for a in study["sidecar"].get("axes", []) if a.get("name") in varied]
     out = {}
@@ -181,8 +183,6 @@ def _shot_conditions(study):
 
 
 def _unit_of(name):
-    from .vocabulary import split
-
     u = split(name)[1]
     return "" if not u else ("°" if u == "°" else f" {u}")
 
@@ -205,9 +205,6 @@ def _sweep_plots(study, tmp, eyes=(), key_only=None, progress=None):
     Only axes with two or more values; categorical axes drawn as points. ``key_only``
     True: the preferred metrics only (the key figures); False: the others; None: all.
     """
-    from . import plots
-    from .vocabulary import label
-
     header, rows = study["metrics_header"], study["metrics_rows"]
     if not header or not rows:
         return []
@@ -277,19 +274,12 @@ def _model_plots(study, tmp):
     and the field and pose recorded in metrics.csv (basic provider).  Returns
     (list of (caption, bytes), note or "").
     """
-    from . import plots
-    from .field import fixed
-    from .pose import Pose
-
     header, rows = study["metrics_header"], study["metrics_rows"]
     cfg = study["sidecar"].get("resolved_config")
     if not rows or not isinstance(cfg, dict):
         return [], "Model plots left out: no resolved configuration or metrics rows."
     row = dict(zip(header, rows[0]))
     try:
-        from .defaults import DEFAULT_GAIN
-        from .study.build import build_layout, build_response
-
         layout = build_layout(cfg["layout"], study["dir"])
         response = build_response(cfg["response"], study["dir"])
         product = cfg["response"].get("product", "singlet")
@@ -309,9 +299,6 @@ def _model_plots(study, tmp):
                                width=360, product=product, gain=gain)
         out.append((f"Predicted modulation pattern in the head frame with θ contours, for "
                     f"{where}, gain {gain:g}.", open(p, "rb").read()))
-        from .mosaic import build_mosaic
-        from .predict import fisher_information, options_to_models
-
         opts = cfg.get("metrics", {}).get("options", {}).get("prediction", {}) or {}
         spec, counts = options_to_models(opts, gain)
         fr = fisher_information(field, layout, response, build_mosaic(layout, spec), counts,
@@ -347,8 +334,6 @@ pre{background:#f6f6f6;padding:.6em;overflow:auto;max-height:40em;font-size:12px
 
 def _overview(study, esc):
     """HTML: what was varied, what was held fixed, how much was rendered."""
-    from .vocabulary import label
-
     sc = study["sidecar"]
     cfg = sc.get("resolved_config", {}) or {}
     shots = sc.get("shots", [])
@@ -375,8 +360,6 @@ def _overview(study, esc):
     site, field = cfg.get("site") or {}, cfg.get("field") or {}
     keys = {k for _n, k, _l, _num in varied}
     if site.get("lat_deg") is not None and "site.lat_deg" not in keys:
-        from .commands.field import latlon_text
-
         fixed_rows.append(("site", f"{site.get('name') or ''} "
                                    f"{latlon_text(site['lat_deg'], site.get('lon_deg', 0.0), 2)}"))
     if field:
@@ -430,8 +413,6 @@ def build_report(study_dir, out=None, thumb_px=192, max_frames=400, max_rows=200
     progress : callable(stage: str, done: int, total: int) or None
         Called as the report is built (thumbnails, then plots), for a progress bar.
     """
-    from .vocabulary import label
-
     study = read_study(study_dir)
     d = study["dir"]
     out = os.path.join(d, REPORT_NAME) if out is None else os.fspath(out)
@@ -503,8 +484,6 @@ def build_report(study_dir, out=None, thumb_px=192, max_frames=400, max_rows=200
                      f"{esc(str(frame))}'></a><figcaption>{esc(cap)}</figcaption></figure>")
         say("thumbnails", i + 1, len(frames))
     parts.append("</div>")
-    from .orientation.report import html_section  # orientation predictions and analysis, if any
-
     parts.append(html_section(d))
     if further:
         parts.append("<h2>Further plots</h2>")
@@ -553,8 +532,6 @@ def build_report(study_dir, out=None, thumb_px=192, max_frames=400, max_rows=200
 
 def _eye_names(cfg, base_dir):
     try:
-        from .study.build import build_layout
-
         return tuple(e.name for e in build_layout(cfg["layout"], base_dir).eyes)
     except Exception:  # the report still works without eye names (raw suffixes shown)
         return ()
@@ -578,199 +555,4 @@ def _fmt(v):
     return f"{f:.6g}"
 
 
-# ---------------------------------------------------------------------------
-# headless browser check
-# ---------------------------------------------------------------------------
-
-BROWSER_NAMES = ("chromium", "chromium-browser", "google-chrome", "chrome")
-BROWSER_FLAGS = ("--headless", "--no-sandbox", "--disable-gpu", "--disable-background-networking",
-                 "--disable-component-update", "--disable-sync", "--no-first-run",
-                 "--disable-dev-shm-usage")
-
-
-def find_browser(browser=None):
-    """Path of a Chromium executable (given, or the first on PATH); None if none."""
-    if browser:
-        p = shutil.which(browser) or (browser if os.path.isfile(browser) else None)
-        return p
-    for n in BROWSER_NAMES:
-        p = shutil.which(n)
-        if p:
-            return p
-    return None
-
-
-class _Pipe:
-    """Chromium DevTools protocol over --remote-debugging-pipe (NUL-separated JSON)."""
-
-    def __init__(self, proc, wfd, rfd):
-        self.proc, self.wfd, self.rfd = proc, wfd, rfd
-        self.buf = b""
-        self.next_id = 0
-        self.events = []
-
-    def send(self, method, params=None, session=None):
-        self.next_id += 1
-        msg = {"id": self.next_id, "method": method, "params": params or {}}
-        if session:
-            msg["sessionId"] = session
-        os.write(self.wfd, json.dumps(msg).encode() + b"\0")
-        return self.next_id
-
-    def _read_one(self, deadline):
-        import select
-
-        while b"\0" not in self.buf:
-            left = deadline - time.monotonic()
-            if left <= 0:
-                raise TimeoutError
-            r, _, _ = select.select([self.rfd], [], [], left)
-            if not r:
-                raise TimeoutError
-            chunk = os.read(self.rfd, 1 << 16)
-            if not chunk:
-                raise EOFError
-            self.buf += chunk
-        msg, _, self.buf = self.buf.partition(b"\0")
-        return json.loads(msg)
-
-    def call(self, method, params=None, session=None, timeout=20.0):
-        i = self.send(method, params, session)
-        deadline = time.monotonic() + timeout
-        while True:
-            m = self._read_one(deadline)
-            if m.get("id") == i:
-                if "error" in m:
-                    raise RuntimeError(f"{method}: {m['error']}")
-                return m.get("result", {})
-            self.events.append(m)
-
-    def wait_event(self, name, timeout=20.0):
-        deadline = time.monotonic() + timeout
-        for m in self.events:
-            if m.get("method") == name:
-                return m
-        while True:
-            m = self._read_one(deadline)
-            self.events.append(m)
-            if m.get("method") == name:
-                return m
-
-    def drain(self, seconds):
-        deadline = time.monotonic() + seconds
-        try:
-            while True:
-                self.events.append(self._read_one(deadline))
-        except TimeoutError:
-            pass
-
-
-_IMAGE_PROBE = ("JSON.stringify(Array.from(document.images).map(i => ({src: i.src.slice(0, 60), "
-                "complete: i.complete, w: i.naturalWidth, h: i.naturalHeight})))")
-
-
-def browser_check(html_path, browser=None, timeout_s=30.0) -> dict:
-    """Open a local HTML file in headless Chromium and report what happened.
-
-    Returns
-    -------
-    dict with ``console_errors`` (list of str: console errors, uncaught exceptions,
-    failed loads), ``images`` (list of dicts: src prefix, complete, natural w and h),
-    ``title`` and ``browser`` (executable and version).
-
-    Raises MagretinaError if no browser is found or it cannot start.
-    """
-    exe = find_browser(browser)
-    if exe is None:
-        raise MagretinaError(
-            f"no Chromium browser found ({'--browser ' + browser if browser else 'looked for ' + ', '.join(BROWSER_NAMES)} "
-            f"on PATH); install one, e.g. 'apt-get install -y chromium'")
-    page = os.path.abspath(os.fspath(html_path))
-    if not os.path.isfile(page):
-        raise MagretinaError(f"report {page}: no such file")
-    profile = tempfile.mkdtemp(prefix="magretina-chromium-")
-    r_child, w_parent = os.pipe()   # browser reads commands on fd 3
-    r_parent, w_child = os.pipe()   # browser writes replies on fd 4
-
-    # The protocol wants the pipe ends on fds 3 and 4.  os.pipe() fds are not inheritable
-    # (PEP 446), so with close_fds=False only the two dup2'ed descriptors reach the browser.
-    def _fds():
-        a, b = os.dup(r_child), os.dup(w_child)
-        os.dup2(a, 3)
-        os.dup2(b, 4)
-        os.set_inheritable(3, True)  # dup2 onto itself (a == 3) leaves the flag unset
-        os.set_inheritable(4, True)
-
-    cmd = [exe, *BROWSER_FLAGS, f"--user-data-dir={profile}", "--remote-debugging-pipe",
-           "about:blank"]
-    errlog_path = os.path.join(profile, "browser-stderr.log")
-    errlog = open(errlog_path, "wb")  # a file, not a pipe: a chatty browser must never block
-    try:
-        proc = subprocess.Popen(cmd, stdin=subprocess.DEVNULL, stdout=subprocess.DEVNULL,
-                                stderr=errlog, preexec_fn=_fds, close_fds=False)
-    except OSError as exc:
-        errlog.close()
-        shutil.rmtree(profile, ignore_errors=True)
-        for fd in (r_child, w_parent, r_parent, w_child):
-            os.close(fd)
-        raise MagretinaError(f"browser {exe} cannot start: {exc.strerror or exc}") from None
-    os.close(r_child)
-    os.close(w_child)
-    cdp = _Pipe(proc, w_parent, r_parent)
-    try:
-        try:
-            version = cdp.call("Browser.getVersion", timeout=timeout_s)
-            tid = cdp.call("Target.createTarget", {"url": "about:blank"})["targetId"]
-            sid = cdp.call("Target.attachToTarget", {"targetId": tid, "flatten": True})["sessionId"]
-            for m in ("Page.enable", "Runtime.enable", "Log.enable", "Network.enable"):
-                cdp.call(m, session=sid)
-            cdp.call("Page.navigate", {"url": "file://" + page}, session=sid)
-            cdp.wait_event("Page.loadEventFired", timeout=timeout_s)
-            cdp.drain(0.5)
-            res = cdp.call("Runtime.evaluate", {"expression": _IMAGE_PROBE, "returnByValue": True},
-                           session=sid)
-            images = json.loads(res["result"]["value"])
-            title = cdp.call("Runtime.evaluate", {"expression": "document.title",
-                                                  "returnByValue": True}, session=sid)
-            errors = []
-            for ev in cdp.events:
-                meth, p = ev.get("method"), ev.get("params", {})
-                if meth == "Runtime.consoleAPICalled" and p.get("type") in ("error", "assert"):
-                    errors.append("console: " + " ".join(str(a.get("value", a.get("description")))
-                                                         for a in p.get("args", [])))
-                elif meth == "Runtime.exceptionThrown":
-                    errors.append("exception: " + str(p.get("exceptionDetails", {}).get("text")))
-                elif meth == "Log.entryAdded" and p.get("entry", {}).get("level") == "error":
-                    errors.append("log: " + str(p["entry"].get("text")) + " "
-                                  + str(p["entry"].get("url", "")))
-                elif meth == "Network.loadingFailed":
-                    errors.append("load failed: " + str(p.get("errorText")))
-            try:
-                cdp.call("Browser.close", timeout=5)
-            except (TimeoutError, EOFError, RuntimeError):
-                pass
-        except (TimeoutError, EOFError, OSError, RuntimeError, ValueError, KeyError) as exc:
-            errlog.flush()
-            with open(errlog_path, "rb") as fh:
-                err = fh.read()[-800:]
-            raise MagretinaError(f"browser {exe} cannot start or load {page} "
-                                 f"({type(exc).__name__}: {exc}); its last output: "
-                                 f"{err.decode(errors='replace').strip() or '(none)'}") from None
-    finally:
-        for fd in (w_parent, r_parent):
-            try:
-                os.close(fd)
-            except OSError:
-                pass
-        try:
-            proc.wait(timeout=10)
-        except subprocess.TimeoutExpired:
-            proc.kill()
-            proc.wait()
-        errlog.close()
-        shutil.rmtree(profile, ignore_errors=True)
-    return {"console_errors": errors, "images": images, "title": title["result"].get("value"),
-            "browser": f"{exe} ({version.get('product', '?')})"}
-
-
-__all__ = ["build_report", "read_study", "browser_check", "find_browser", "REPORT_NAME", "CAUTION"]
+__all__ = ["build_report", "read_study", "REPORT_NAME", "CAUTION"]

@@ -16,6 +16,8 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from .errors import MagretinaError
+from .io import read_image_linear
+from .inputs import image_size
 
 
 @dataclass(frozen=True)
@@ -72,9 +74,6 @@ class Scene:
     @classmethod
     def load(cls, path, north_col=None) -> "Scene":
         """Read a 2:1 panorama file (8-bit taken as sRGB, 16-bit as linear)."""
-        from .inputs import image_size
-        from .io import read_image_linear
-
         # Shape from the header first: a wrong or huge file is refused before decoding.
         W, H = image_size(path, "scene")
         if W != 2 * H:

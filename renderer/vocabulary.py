@@ -3,7 +3,8 @@
 Outputs (CSV, NetCDF, JSON) use the dictionary's snake_case names; tables, plot axes
 and the HTML report show people a label with the unit instead.  :func:`label` turns
 any dictionary name (including per-eye names and unknown ones, from their unit word)
-into such a label.  This module holds words only; it computes nothing.
+into such a label; :func:`latlon_text` writes a site with hemispheres.  This module
+holds words only; it computes nothing.
 """
 
 from __future__ import annotations
@@ -78,3 +79,18 @@ def label(name, eyes=(), unit=True) -> str:
     lab, u, eye = split(name, eyes)
     out = lab + (f" ({u})" if unit and u else "")
     return out + (f", {eye} eye" if eye else "")
+
+
+def latlon_text(lat_deg, lon_deg, digits=4) -> str:
+    """``'12.0500° S, 75.3000° W'``: a site with its hemispheres instead of signs.
+
+    Longitudes are wrapped to (-180, 180] first (common practice of geographic
+    notation: east and west up to 180°).
+    """
+    lon = (float(lon_deg) + 180.0) % 360.0 - 180.0
+    if lon == -180.0:
+        lon = 180.0
+    lat = float(lat_deg)
+    ns = "S" if lat < 0 else "N"
+    ew = "W" if lon < 0 else "E"
+    return f"{abs(lat):.{digits}f}° {ns}, {abs(lon):.{digits}f}° {ew}"

@@ -169,6 +169,7 @@ def say_date(a, stream=None):
 
 
 def field_from_args(a):
+    # deferred: library modules load when the command runs, so start-up stays light
     from ..field import at_site, fixed
 
     if a.field_ut is not None:
@@ -201,7 +202,8 @@ def add_model_args(p):
     g.add_argument("--alignment", default=None,
                    help="receptor alignment for every eye: MODE[,key=value,...], e.g. "
                         "'tilt,tilt_deg=54.74', 'disorder,kappa=5', 'full-frame,in_plane=random' "
-                        "(modes: normal, chief-ray, tilt, disorder, ratio, full-frame)")
+                        "(MODE: a name of renderer.eye.ALIGNMENTS; an unknown mode is refused "
+                        "with the list)")
     g.add_argument("--product", default="singlet", help="which product drives vision: singlet | triplet")
     g.add_argument("--gain", type=float, default=DEFAULT_GAIN,
                    help="modulation gain (>= 0): m = gain·(s/<s> - 1); the default exaggerates "
@@ -209,6 +211,7 @@ def add_model_args(p):
 
 
 def response_from_args(a):
+    # deferred: library modules load when the command runs, so start-up stays light
     from ..response import Legendre, Tabulated
 
     if getattr(a, "response_table", None):
@@ -226,6 +229,7 @@ def response_from_args(a):
 
 def layout_from_args(a):
     """The layout named by --layout, with --alignment applied to every eye if given."""
+    # deferred: library modules load when the command runs, so start-up stays light
     from ..eye import load_layout
 
     layout = load_layout(a.layout)
@@ -250,7 +254,8 @@ def layout_from_args(a):
 
 def add_view_args(p, default_width=1024):
     g = p.add_argument_group("view and scene")
-    g.add_argument("--view", default="world-panorama", help="world-panorama | head-panorama | eye-disc | perspective | retina")
+    g.add_argument("--view", default="world-panorama", help="view kind: a name of renderer.views.REGISTRY (default world-panorama; "
+                        "an unknown kind is refused with the list)")
     g.add_argument("--width", type=int, default=default_width, help="panorama width or disc size, pixels")
     g.add_argument("--eye", default=None, help="eye name or index (eye-disc, or to show one eye only)")
     g.add_argument("--scene", default=None, metavar="FILE", help="2:1 equirectangular scene image (default: procedural dusk)")
@@ -290,6 +295,7 @@ _PERSPECTIVE = {"fov_deg": "hfov_deg", "height": "height", "look_yaw_deg": "yaw_
 
 
 def view_from_args(a):
+    # deferred: library modules load when the command runs, so start-up stays light
     from ..views import REGISTRY
 
     if a.view not in REGISTRY:
@@ -323,6 +329,7 @@ def view_from_args(a):
 
 
 def scene_from_args(a, width):
+    # deferred: library modules load when the command runs, so start-up stays light
     from ..scene import Scene, dusk
 
     if a.scene:
@@ -338,6 +345,7 @@ def add_budget_args(p):
 
 
 def check_response_mean(response, product, what):
+    # deferred: library modules load when the command runs, so start-up stays light
     from ..pipeline import check_signal_nonzero
 
     check_signal_nonzero(response, product, what)
@@ -398,6 +406,7 @@ def add_display_args(p):
 
 def display_from_args(a):
     """The display model and quantiser of parsed arguments: (Display, method, seed)."""
+    # deferred: library modules load when the command runs, so start-up stays light
     from ..display import make_display
     from ..dither import check_method
 

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import os
+
 from . import _common
 
 
@@ -15,14 +17,13 @@ def register(sub):
 
 
 def run(a) -> int:
-    import os
-
+    # deferred: library modules load when the command runs, so start-up stays light
     from ..demo import CAUTION, SITE, run_demo
 
     display, method, seed = _common.display_from_args(a)
     files = run_demo(a.out, width=a.width, force=a.force, display=display, dither=method,
                      dither_seed=seed)
-    from .field import latlon_text
+    from ..vocabulary import latlon_text
 
     print(f"demo: {SITE['name']}, {latlon_text(SITE['lat_deg'], SITE['lon_deg'], 2)}, "
           f"{SITE['date']} (an invented scenario)")

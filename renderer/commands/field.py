@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import json
 
+from ..vocabulary import latlon_text
 from . import _common
 
 
@@ -23,22 +24,8 @@ def register(sub):
     p.set_defaults(func=run)
 
 
-def latlon_text(lat_deg, lon_deg, digits=4) -> str:
-    """``'12.0500° S, 75.3000° W'``: a site with its hemispheres instead of signs.
-
-    Longitudes are wrapped to (-180, 180] first (common practice of geographic
-    notation: east and west up to 180°).
-    """
-    lon = (float(lon_deg) + 180.0) % 360.0 - 180.0
-    if lon == -180.0:
-        lon = 180.0
-    lat = float(lat_deg)
-    ns = "S" if lat < 0 else "N"
-    ew = "W" if lon < 0 else "E"
-    return f"{abs(lat):.{digits}f}° {ns}, {abs(lon):.{digits}f}° {ew}"
-
-
 def run(a) -> int:
+    # deferred: library modules load when the command runs, so start-up stays light
     from ..field import at_site
 
     date = _common.field_date(a)

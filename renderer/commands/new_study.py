@@ -4,6 +4,8 @@ from __future__ import annotations
 
 import os
 
+from ._common import refuse_overwrite
+
 
 def register(sub):
     p = sub.add_parser("new-study", help="write a commented example study file",
@@ -15,6 +17,7 @@ def register(sub):
 
 def example_text(path=None) -> str:
     """The example study; with ``path``, its header's commands name that file."""
+    # deferred: library modules load when the command runs, so start-up stays light
     from importlib import resources
 
     text = (resources.files("renderer.study") / "examples" / "example_study.toml").read_text(
@@ -26,8 +29,8 @@ def example_text(path=None) -> str:
 
 
 def run(a) -> int:
+    # deferred: library modules load when the command runs, so start-up stays light
     from ..io import atomic_write_text
-    from ._common import refuse_overwrite
 
     refuse_overwrite([a.path], a.force)
     atomic_write_text(a.path, example_text(a.path))

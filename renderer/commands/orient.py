@@ -17,6 +17,8 @@ import math
 import os
 import sys
 
+from ..errors import MagretinaError
+
 ANALYSIS_JSON = "orientation-analysis.json"
 
 
@@ -58,7 +60,8 @@ def register(sub):
 
 
 def _load(path):
-    from ..study.config import load_study
+    # deferred: library modules load when the command runs, so start-up stays light
+    from ..study import load_study
 
     return load_study(path)
 
@@ -70,6 +73,7 @@ def _f(x, nd=4):
 
 
 def run_predict(args) -> int:
+    # deferred: library modules load when the command runs, so start-up stays light
     from ..orientation.model import CAUTION
     from ..study.orientation import json_bytes, predict_plan
 
@@ -106,15 +110,16 @@ def run_predict(args) -> int:
 
 
 def _write_predict(out, per, doc):
+    # deferred: library modules load when the command runs, so start-up stays light
     from ..study.orientation import write_outputs
 
     write_outputs(out, per, doc)
 
 
 def run_analyse(args) -> int:
+    # deferred: library modules load when the command runs, so start-up stays light
     from ..orientation.analysis import analyse, format_analysis
     from ..orientation.headings import read_headings
-    from ..errors import MagretinaError
     from ..study.orientation import json_bytes, predict_plan
 
     study = _load(args.study)

@@ -13,7 +13,7 @@ import json
 import os
 import sys
 
-from ..errors import MagretinaError
+from ..errors import MagretinaError, check_range
 from . import _common
 
 
@@ -47,6 +47,7 @@ def add_prediction_args(p):
 
 
 def spec_from_args(a):
+    # deferred: library modules load when the command runs, so start-up stays light
     from ..mosaic import MosaicSpec
 
     ecc, rel = [], []
@@ -65,7 +66,7 @@ def spec_from_args(a):
 
 
 def counts_from_args(a):
-    from ..errors import check_range
+    # deferred: library modules load when the command runs, so start-up stays light
     from ..predict import CountModel, make_noise
 
     from ..budget import check_finite
@@ -83,6 +84,7 @@ def counts_from_args(a):
 
 def check_predict(a, n_headings):
     """Refuse before allocating: headings x receptors tables and the --noisy panorama."""
+    # deferred: library modules load when the command runs, so start-up stays light
     from .. import budget
 
     est = budget.Estimate("predict")
@@ -160,7 +162,8 @@ def counts_text(d) -> str:
 
 def format_assumptions(field, pose, layout, response, product, spec, counts) -> str:
     """The configuration a prediction used, one labelled line each (field first)."""
-    from .field import latlon_text
+    # deferred: library modules load when the command runs, so start-up stays light
+    from ..vocabulary import latlon_text
 
     d = field.as_dict() if hasattr(field, "as_dict") else {}
     site = d.get("site") or {}
@@ -183,6 +186,7 @@ def format_assumptions(field, pose, layout, response, product, spec, counts) -> 
 
 def format_metrics(metrics, eye_names) -> str:
     """A two-part table: whole-layout metrics, then one column per eye, with units."""
+    # deferred: library modules load when the command runs, so start-up stays light
     from ..vocabulary import split
 
     eyes = sorted(eye_names, key=len, reverse=True)
@@ -243,6 +247,7 @@ def register(sub):
 
 
 def run(a) -> int:
+    # deferred: library modules load when the command runs, so start-up stays light
     import numpy as np
 
     from ..pose import Pose
@@ -336,10 +341,11 @@ def _quantum_bound(a, field):
     frame (θ, φ); N independent pairs scale the information by N.  They stand beside the
     receptor-array bound, which includes the mosaic, counts and noise, and do not replace it.
     """
+    # deferred: library modules load when the command runs, so start-up stays light
     import math
 
     from ..spin.definition import load_pair
-    from ..spin.quantum import compute_information_table
+    from ..response.information_table import compute_information_table
 
     pair = load_pair(a.quantum_pair)
     b_T = float(field.total_T)

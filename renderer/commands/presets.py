@@ -55,6 +55,7 @@ def _doc_line(obj) -> str:
 def rows(kind) -> list[tuple[str, str]]:
     """(name, one-line description) of every entry of one kind."""
     if kind == "layouts":
+        # deferred: library modules load when the command runs, so start-up stays light
         from ..eye.layout import preset_names
 
         root = resources.files("renderer.eye") / "presets"

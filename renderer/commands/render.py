@@ -51,6 +51,7 @@ def register(sub):
 def _apply_config(a):
     if not a.config:
         return a
+    # deferred: library modules load when the command runs, so start-up stays light
     from ..inputs import read_toml
 
     data = read_toml(a.config, "config")
@@ -87,6 +88,7 @@ def _apply_config(a):
 
 
 def _grey(value, display):
+    # deferred: library modules load when the command runs, so start-up stays light
     from ..display import parse_target
 
     try:
@@ -129,6 +131,7 @@ def _type_problems(data, actions):
 
 def check_render(a, view):
     """Refuse a frame whose view, scene and buffers would not fit (before allocating)."""
+    # deferred: library modules load when the command runs, so start-up stays light
     from .. import budget
 
     H, W = view.shape
@@ -146,9 +149,10 @@ def check_render(a, view):
 
 
 def run(a) -> int:
+    # deferred: library modules load when the command runs, so start-up stays light
     import numpy as np
 
-    import renderer
+    from .. import pipeline
     from ..composite import modulation_map, pattern_grey, to_uint8_srgb
     from ..display import displayed_stats
     from ..dither import frame_seed, quantise
@@ -177,7 +181,7 @@ def run(a) -> int:
     response = _common.response_from_args(a)
     _common.check_response_mean(response, a.product, "the response")
     scene = _common.scene_from_args(a, view.shape[1])
-    img = renderer.render(field, pose, layout, response, view, scene=scene, gain=a.gain,
+    img = pipeline.render(field, pose, layout, response, view, scene=scene, gain=a.gain,
                           product=a.product, outside=a.outside)
     params = frame_params(field, pose, layout, response, view, a.gain, a.product, display,
                           method, seed if method != "none" else None,
@@ -198,7 +202,7 @@ def run(a) -> int:
         written.append((a.png16, "linear16", None))
     sig = mean = None
     if a.pattern or a.figure or sidecar:
-        sig, mean = renderer.render_signal(field, pose, layout, response, view, a.product)
+        sig, mean = pipeline.render_signal(field, pose, layout, response, view, a.product)
         pat = pattern_grey(sig, mean, a.gain, grey=grey)
         pcodes = quantise(display, pat, method, frame_seed(seed, 0, view=1))
         stats["pattern"] = displayed_stats(display, pat, pcodes, mask=~np.isnan(sig))

@@ -10,6 +10,8 @@ from __future__ import annotations
 import os
 import sys
 
+from ..errors import MagretinaError
+
 
 def register(sub):
     p = sub.add_parser("report", help="write a static HTML report of a finished study",
@@ -31,8 +33,9 @@ def register(sub):
 
 
 def run(a) -> int:
-    from ..errors import MagretinaError
-    from ..report import BROWSER_NAMES, browser_check, build_report, find_browser
+    # deferred: library modules load when the command runs, so start-up stays light
+    from ..browser import BROWSER_NAMES, browser_check, find_browser
+    from ..report import build_report
 
     if a.max_frames < 0:
         raise MagretinaError(f"--max-frames = {a.max_frames}: must be >= 0")
@@ -46,6 +49,7 @@ def run(a) -> int:
 
     def progress(stage, done, total):
         # one bar per stage on stderr (plots, then thumbnails); the report takes seconds
+        # deferred: library modules load when the command runs, so start-up stays light
         from tqdm import tqdm
 
         if stage not in bars:

@@ -35,7 +35,8 @@ def register(subparsers):
     c.add_argument("--lmax", type=int, default=16,
                    help="highest spherical-harmonic degree of the fit (even, 0..64)")
     c.add_argument("--method", default="auto",
-                   choices=["auto", "separable", "eigenbasis", "liouville", "spectral"], help="spin solver")
+                   help="spin solver: auto or a name of renderer.spin.SOLVERS (an unknown name "
+                        "is refused with the list)"),
     c.add_argument("--no-cache", action="store_true", help="neither read nor write the disk cache")
     c.add_argument("--out", required=True, metavar="TABLE", help="output table file (.npz)")
     c.add_argument("--force", action="store_true", help="overwrite an existing --out file")
@@ -69,6 +70,7 @@ def register(subparsers):
 
 
 def cmd_compute(args) -> int:
+    # deferred: library modules load when the command runs, so start-up stays light
     from tqdm import tqdm
 
     from ..response.harmonic import lebedev_grid, lebedev_order_for
@@ -93,9 +95,9 @@ def cmd_compute(args) -> int:
     info = preset_metadata(args.pair)
     method = choose_method(pair, args.method)
     from .. import budget
-    from ..spin.system import estimate_memory_bytes
+    from ..spin.planner import estimate_memory_bytes
 
-    # The solver's own estimate (renderer.spin.system), checked against the shared limit.
+    # The solver's own estimate (renderer.spin.planner), checked against the shared limit.
     budget.Estimate("response compute").add(f"'{method}' solver", estimate_memory_bytes(
         pair, method)).check(check_frames=False)
     n_nodes = len(lebedev_grid(lebedev_order_for(2 * args.lmax + 5))[0])
@@ -130,12 +132,8 @@ def _print_summary(table):
 
 
 def cmd_show(args) -> int:
-    import matplotlib
-
-    matplotlib.use("Agg")
-    import matplotlib.pyplot as plt
-    import numpy as np
-
+    # deferred: library modules load when the command runs, so start-up stays light
+    from ..plots import plot_spin_table
     from ..response.spin_table import SpinTable
 
     if not os.path.isfile(args.table):
@@ -143,30 +141,7 @@ def cmd_show(args) -> int:
     table = SpinTable.load(args.table)
     _print_summary(table)
     plot = Path(args.plot) if args.plot else Path(args.table).with_suffix(".png")
-    lut = table.sphere_lut(181, 361)
-    axial = table.axial_average()
-    fig, (ax1, ax2) = plt.subplots(1, 2, figsize=(11, 4.2), gridspec_kw={"width_ratios": [2, 1]})
-    im = ax1.imshow(lut, extent=[-180, 180, 180, 0], aspect="auto", cmap="viridis")
-    ax1.set_xlabel("field azimuth phi in molecular frame (deg, from x towards y)")
-    ax1.set_ylabel("field polar angle theta from molecular z (deg)")
-    ax1.set_title(f"singlet yield at |B| = {table.field_T * 1e6:g} µT")
-    fig.colorbar(im, ax=ax1, label="Phi_S")
-    th = np.linspace(0, 180, 361)
-    ax2.plot(th, axial(np.cos(np.radians(th))))
-    ax2.set_xlabel("theta (deg)")
-    ax2.set_ylabel("Phi_S averaged over rotation about z")
-    ax2.set_title("axial average")
-    fig.text(0.5, 0.005, HYPOTHESIS_NOTE, ha="center", va="bottom", fontsize=7)
-    fig.tight_layout(rect=(0, 0.03, 1, 1))
-    plot.parent.mkdir(parents=True, exist_ok=True)
-    tmp = plot.with_name(f".{plot.name}.{os.getpid()}.tmp")
-    try:
-        fig.savefig(tmp, dpi=110, format=plot.suffix.lstrip(".") or "png")
-        os.replace(tmp, plot)
-    finally:
-        plt.close(fig)
-        if tmp.exists():
-            tmp.unlink()
+    plot_spin_table(table, plot, note=HYPOTHESIS_NOTE)
     print(f"wrote {plot}")
     return 0
 
@@ -185,12 +160,13 @@ def print_information_summary(table, indent=""):
 
 
 def cmd_information(args) -> int:
+    # deferred: library modules load when the command runs, so start-up stays light
     from tqdm import tqdm
 
     from ..plots import plot_information
     from ..response.harmonic import lebedev_grid, lebedev_order_for
     from ..spin.definition import load_pair, preset_metadata
-    from ..spin.quantum import compute_information_table, estimate_information_cost
+    from ..response.information_table import compute_information_table, estimate_information_cost
 
     field_uT = check_range("--field-ut", args.field_ut, 0.0, 1e9, lo_open=True, unit="µT")
     if args.k_s is not None:
@@ -219,6 +195,7 @@ def cmd_information(args) -> int:
 
 
 def cmd_presets(args) -> int:
+    # deferred: library modules load when the command runs, so start-up stays light
     from ..spin.definition import list_presets, load_pair, preset_metadata
 
     for name in list_presets():
@@ -242,6 +219,7 @@ def cmd_presets(args) -> int:
 
 
 def cmd_clear_cache(args) -> int:
+    # deferred: library modules load when the command runs, so start-up stays light
     from ..response import cache
     from ..response.spin_table import CACHE_KIND
 

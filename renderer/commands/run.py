@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from ..errors import MagretinaError
+
 
 def register(sub):
     p = sub.add_parser("run", help="run or resume a study (TOML) into a study folder",
@@ -28,7 +30,7 @@ def register(sub):
 
 
 def run(a) -> int:
-    from ..errors import MagretinaError
+    # deferred: library modules load when the command runs, so start-up stays light
     from ..study import run_study
 
     from ..budget import check_jobs

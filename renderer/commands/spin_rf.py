@@ -35,6 +35,7 @@ def _pair_args(p):
 
 
 def _load(args):
+    # deferred: library modules load when the command runs, so start-up stays light
     from ..spin.definition import load_pair
 
     check_range("--field-ut", args.field_ut, 0.0, 1e9, lo_open=True, unit="µT")
@@ -142,7 +143,7 @@ def register(subparsers):
 
 
 def _bar(total, desc):
-    from tqdm import tqdm
+    from tqdm import tqdm  # deferred: only commands that show progress need it
 
     return tqdm(total=total, unit="dir", desc=desc)
 
@@ -154,9 +155,11 @@ def _lmax(v):
 
 
 def cmd_plan(args) -> int:
+    # deferred: library modules load when the command runs, so start-up stays light
     from ..response.harmonic import lebedev_grid, lebedev_order_for
+    from ..response.spin_table import compute_table
     from ..spin import singlet_yield
-    from ..spin.planner import compute_table, plan
+    from ..spin.planner import plan
 
     pair = _load(args)
     lmax = _lmax(args.lmax)
@@ -218,6 +221,7 @@ def cmd_plan(args) -> int:
 
 
 def cmd_spectrum(args) -> int:
+    # deferred: library modules load when the command runs, so start-up stays light
     from tqdm import tqdm
 
     from ..io import atomic_write_json
@@ -255,7 +259,10 @@ def cmd_spectrum(args) -> int:
 
 
 def cmd_rf_table(args) -> int:
-    from ..spin.planner import compute_table, plan
+    # deferred: library modules load when the command runs, so start-up stays light
+    from ..response.harmonic import lebedev_grid, lebedev_order_for
+    from ..response.spin_table import compute_table
+    from ..spin.planner import plan
     from ..spin.rf import RFField, rf_yield_relative
 
     pair = _load(args)
@@ -265,8 +272,6 @@ def cmd_rf_table(args) -> int:
     f = check_range("--rf-mhz", args.rf_mhz, 0.0, None, lo_open=True, unit="MHz") * 1e6
     ang = check_range("--rf-angle-deg", args.rf_angle_deg, 0.0, 180.0, unit="deg")
     RFField(amp, f).check_against([0.0, 0.0, b])
-    from ..response.harmonic import lebedev_grid, lebedev_order_for
-
     n_solve = (len(lebedev_grid(lebedev_order_for(2 * lmax + 5))[0]) + 1) // 2
     n_psi = 1 if ang % 180 == 0 else 4
     workers = os.cpu_count() or 1

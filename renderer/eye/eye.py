@@ -15,7 +15,7 @@ geometry of a single eye; layouts of several eyes are in :mod:`.layout`.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 from scipy.spatial.transform import Rotation
@@ -165,8 +165,6 @@ class Eye:
     def moved(self, d_azimuth_deg=0.0, d_elevation_deg=0.0, d_torsion_deg=0.0) -> "Eye":
         """This eye after an eye movement: the offsets add to its placement angles
         (its field of view moves with it).  Azimuth wraps to [-180, 180]."""
-        from dataclasses import replace
-
         az = (self.azimuth_deg + float(d_azimuth_deg) + 180.0) % 360.0 - 180.0
         if self.azimuth_deg + float(d_azimuth_deg) == 180.0:
             az = 180.0
@@ -175,8 +173,6 @@ class Eye:
         return replace(self, azimuth_deg=az, elevation_deg=el, torsion_deg=tor)
 
     def with_alignment(self, alignment) -> "Eye":
-        from dataclasses import replace
-
         return replace(self, alignment=parse_alignment(alignment, f"eye {self.name!r}: alignment"))
 
     # -- optics ----------------------------------------------------------------

@@ -20,6 +20,7 @@ import numpy as np
 
 from ..errors import ConfigError, MagretinaError
 from .eye import Eye
+from ..inputs import read_toml
 
 _TOP_KEYS = {"name", "description", "source", "eye", "alignment"}
 
@@ -220,8 +221,6 @@ def load_layout(name_or_path) -> Layout:
         with ref.open("rb") as fh:
             return parse_layout(tomllib.load(fh), source=f"layout preset {s}")
     if os.path.isfile(s):
-        from ..inputs import read_toml
-
         data = read_toml(s, "layout file")
         return parse_layout(data, source=s)
     raise MagretinaError(f"unknown layout {s!r}: not a preset ({', '.join(preset_names())}) "

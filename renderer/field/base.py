@@ -2,19 +2,20 @@
 
 A field model turns a site (geodetic latitude, longitude, altitude above the WGS84
 ellipsoid) and a date into a :class:`FieldVector` in the local North-East-Down frame.
-This module defines that result and the date parsing/validation; it does not
-evaluate any model.
+This module defines that result, the :class:`SiteModel` record that registers a
+model, and the date parsing/validation; it does not evaluate any model.
 """
 
 from __future__ import annotations
 
 import datetime as _dt
 import math
+from collections.abc import Callable
 from dataclasses import dataclass, field
 
 import numpy as np
 
-from ..errors import MagretinaError
+from ..errors import MagretinaError, check_range
 
 #: Validity of IGRF-14 in decimal years (IAGA WG V-MOD, 2024).
 IGRF_VALID = (1900.0, 2030.0)
@@ -149,10 +150,37 @@ def check_igrf_date(date) -> _dt.datetime:
 
 def check_site(lat_deg, lon_deg, alt_km):
     """Validate a site; return floats (lat, lon wrapped to [-180, 180), alt)."""
-    from ..errors import check_range
-
     lat = check_range("latitude (lat_deg)", lat_deg, -90.0, 90.0, unit="degrees")
     lon = check_range("longitude (lon_deg)", lon_deg, -360.0, 360.0, unit="degrees")
     alt = check_range("altitude (alt_km)", alt_km, -10.0, 1000.0, unit="km above the WGS84 ellipsoid")
     lon = (lon + 180.0) % 360.0 - 180.0
     return lat, lon, alt
+
+
+@dataclass(frozen=True)
+class SiteModel:
+    """A geomagnetic model of site and date: one entry of :data:`renderer.field.MODELS`.
+
+    Calling the record evaluates one site (``model(lat_deg, lon_deg, alt_km, date)``).
+
+    Attributes
+    ----------
+    name : str
+        Name used on the command line and in study files.
+    at : callable
+        ``at(lat_deg, lon_deg, alt_km=0.0, date=...) -> FieldVector`` for one site
+        (validated; degrees, km above WGS84).
+    ned_T : callable
+        ``ned_T(lat_deg (n,), lon_deg (n,), alt_km (n,), date) -> ndarray (n, 3)``: many
+        points of one date, local NED, tesla (the form batches of frames use).
+    source : str
+        Where the numbers come from, as written into outputs.
+    """
+
+    name: str
+    at: Callable
+    ned_T: Callable
+    source: str
+
+    def __call__(self, lat_deg, lon_deg, alt_km=0.0, date="2026-06-01") -> FieldVector:
+        return self.at(lat_deg, lon_deg, alt_km, date)

@@ -13,8 +13,11 @@ from __future__ import annotations
 
 import numpy as np
 
-from .base import FieldVector, check_igrf_date, check_site, decimal_year
-from .igrf import coefficient_file
+from .base import FieldVector, SiteModel, check_igrf_date, check_site, decimal_year
+from .igrf import _ppigrf, coefficient_file
+
+#: Provenance text of every dipole value.
+SOURCE = "centred dipole from IGRF-14 g10, g11, h11"
 
 #: IGRF reference radius, km (IAGA WG V-MOD).
 REFERENCE_RADIUS_KM = 6371.2
@@ -25,10 +28,8 @@ WGS84_F = 1.0 / 298.257223563
 
 def dipole_coefficients(date) -> tuple[float, float, float]:
     """(g10, g11, h11) in nT of IGRF-14 at ``date``, linear in time between epochs."""
-    import ppigrf
-
     when = check_igrf_date(date)
-    g, h = ppigrf.ppigrf.read_shc(coefficient_file())
+    g, h = _ppigrf().ppigrf.read_shc(coefficient_file())
     t = np.array([ts.timestamp() for ts in g.index.to_pydatetime()])
     x = when.timestamp()
     g10 = float(np.interp(x, t, g[(1, 0)].to_numpy(float)))
@@ -94,6 +95,29 @@ def dipole(lat_deg, lon_deg, alt_km=0.0, date="2026-06-01") -> FieldVector:
     ned = ned_basis_ecef(lat, lon) @ b_ecef * 1e-9
     return FieldVector(ned, model="dipole", date=when.date().isoformat(),
                        site={"lat_deg": lat, "lon_deg": lon, "alt_km": alt},
-                       source="centred dipole from IGRF-14 g10, g11, h11",
+                       source=SOURCE,
                        extra={"decimal_year": decimal_year(when), "g10_nT": g10,
                               "g11_nT": g11, "h11_nT": h11})
+
+
+def dipole_ned_T(lat_deg, lon_deg, alt_km, date) -> np.ndarray:
+    """Centred-dipole field at many points of one date.
+
+    Parameters
+    ----------
+    lat_deg, lon_deg, alt_km : array_like (n,)
+        Geodetic latitude, longitude (degrees), altitude above WGS84 (km).
+    date : date-like
+        One date within IGRF-14's validity.
+
+    Returns
+    -------
+    ndarray (n, 3)
+        North, east, down in tesla (each point evaluated by :func:`dipole`).
+    """
+    if not np.size(lat_deg):
+        return np.zeros((0, 3))
+    return np.stack([dipole(a, b, c, date).ned_T for a, b, c in zip(lat_deg, lon_deg, alt_km)])
+
+
+MODEL = SiteModel("dipole", dipole, dipole_ned_T, SOURCE)

@@ -13,11 +13,14 @@ import os
 
 import numpy as np
 
-from .base import FieldVector, check_igrf_date, check_site, decimal_year
+from .base import FieldVector, SiteModel, check_igrf_date, check_site, decimal_year
+
+#: Provenance text of every IGRF value.
+SOURCE = "IGRF-14 via ppigrf (IGRF14.shc)"
 
 
 def _ppigrf():
-    import ppigrf
+    import ppigrf  # deferred: ppigrf imports pandas (~0.5 s), needed only when evaluating
 
     return ppigrf
 
@@ -75,5 +78,8 @@ def igrf(lat_deg, lon_deg, alt_km=0.0, date="2026-06-01") -> FieldVector:
     ned = igrf_ned_T(lat, lon, alt, when)
     return FieldVector(ned, model="igrf", date=when.date().isoformat(),
                        site={"lat_deg": lat, "lon_deg": lon, "alt_km": alt},
-                       source="IGRF-14 via ppigrf (IGRF14.shc)",
+                       source=SOURCE,
                        extra={"decimal_year": decimal_year(when)})
+
+
+MODEL = SiteModel("igrf", igrf, igrf_ned_T, SOURCE)

@@ -26,6 +26,7 @@ from __future__ import annotations
 import math
 
 import numpy as np
+from scipy.optimize import minimize
 
 from ..errors import MagretinaError
 from .model import density_at, von_mises_smooth
@@ -75,8 +76,6 @@ def loglik(angles_deg, pred, kappa=None, q=None, axial=False) -> float:
 
 def fit_behaviour(observed, preds, axial) -> tuple:
     """ML (κ_b, q) for one hypothesis over its conditions -> (kappa, q, loglik)."""
-    from scipy.optimize import minimize
-
     def nll(x):
         kappa, q = math.exp(x[0]), 1.0 / (1.0 + math.exp(-x[1]))
         s = sum(loglik(observed[c], preds[c], kappa, q, axial.get(c, False)) for c in observed)

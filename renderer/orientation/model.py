@@ -42,8 +42,10 @@ import math
 from dataclasses import dataclass, field
 
 import numpy as np
+from threadpoolctl import threadpool_limits
 
 from ..errors import MagretinaError, check_range
+from ..field import FieldVector
 from ..predict.fisher import make_setup, unit_counts
 
 __all__ = ["Condition", "Hypothesis", "Behaviour", "Prediction", "Predictor",
@@ -157,8 +159,6 @@ def kl_matrix(mu_c, mu_t, noise):
     ½ Σ [log(v_b/v_a) + (v_a + (a − b)²)/v_b − 1] (Cover & Thomas 2006, ch. 8;
     common practice).  Written with matrix products so that large grids stay fast.
     """
-    from threadpoolctl import threadpool_limits
-
     # small products: one BLAS thread (OpenBLAS threads spin and slow down on a busy
     # machine, as noted for the spin solvers in DEVELOPERS.md)
     with threadpool_limits(1, "blas"):
@@ -311,8 +311,6 @@ class Predictor:
         self.template = self._counts(ambient.ned_T, "default")
 
     def _counts(self, b_ned_T, response_key):
-        from ..field import FieldVector
-
         f = FieldVector(np.asarray(b_ned_T, float), model="condition")
         setup = make_setup(f, self.h.layout, self.h.response_for(response_key), self.mosaic,
                            self.counts, self.behaviour.pitch_deg, self.behaviour.roll_deg,
@@ -356,8 +354,6 @@ class Predictor:
         the preferred heading, then the behavioural spread and the non-orienting
         share are applied.
         """
-        from threadpoolctl import threadpool_limits
-
         n = int(n_animals)
         if n < 1:
             raise MagretinaError(f"n_animals = {n_animals!r}: must be >= 1")

@@ -21,6 +21,8 @@ import numpy as np
 
 from ..errors import MagretinaError
 from . import statistics as st
+from .comparison import compare
+from .model import sample_headings
 
 __all__ = ["TESTS", "simulate_power", "power_curve", "animals_needed", "discrimination_power",
            "animals_to_discriminate"]
@@ -142,9 +144,6 @@ def discrimination_power(predictions, true_hypothesis, n, n_sim=100, seed=0) -> 
     predictions as they stand); a success is the true hypothesis ranked first and
     distinguishable (ΔAIC ≥ 2 to the runner-up, uniform baseline included).
     """
-    from .comparison import compare
-    from .model import sample_headings
-
     if true_hypothesis not in predictions:
         raise MagretinaError(f"hypothesis {true_hypothesis!r}: not among "
                              f"{', '.join(map(repr, predictions))}")

@@ -19,6 +19,9 @@ from __future__ import annotations
 import math
 
 import numpy as np
+from scipy.optimize import brentq
+from scipy.special import i0e, i1e, ndtr
+from scipy.stats import chi2, f as fdist
 
 from ..errors import MagretinaError
 
@@ -197,8 +200,6 @@ def v_test_p(u, n):
     """One-sided p of the V test: normal tail with the small-sample terms of
     Durand & Greenwood (1958), as in astropy.stats.vtest; clipped to [0, 1]
     (floored at half the normal tail where the expansion breaks down)."""
-    from scipy.special import ndtr
-
     z = float(u)
     tail = float(ndtr(-z))
     pdf = math.exp(-0.5 * z * z) / math.sqrt(2.0 * math.pi)
@@ -242,8 +243,6 @@ def v_test(angles_deg, expected_deg, axial=False):
 
 def a1(kappa):
     """A1(κ) = I1(κ)/I0(κ): mean resultant length of a von Mises distribution."""
-    from scipy.special import i0e, i1e
-
     k = np.asarray(kappa, float)
     return i1e(k) / i0e(k)
 
@@ -255,8 +254,6 @@ def kappa_from_r(r, n=None):
     the small-sample correction of Fisher (1993, eq. 4.41) is applied for n < 15.
     Returns 0 for r = 0 and inf for r = 1.
     """
-    from scipy.optimize import brentq
-
     r = float(r)
     if r <= 0.0:
         return 0.0
@@ -286,8 +283,6 @@ def mean_ci(angles_deg, alpha=0.05, axial=False):
     (lo_deg, hi_deg) or None : compass degrees (halved for axial data; lo may be
         numerically greater than hi when the interval spans north).
     """
-    from scipy.stats import chi2
-
     mean, r, n = mean_vector(angles_deg, axial)
     if not 0.0 < alpha < 1.0:
         raise MagretinaError(f"alpha = {alpha!r}: allowed (0, 1)")
@@ -325,8 +320,6 @@ def watson_williams(*samples, axial=False) -> dict:
     -------
     dict: ``F``, ``p``, ``df1``, ``df2``, ``kappa`` (pooled), ``r_w``, ``means_deg``.
     """
-    from scipy.stats import f as fdist
-
     if len(samples) < 2:
         raise MagretinaError("watson_williams: needs at least two samples")
     rads = [_rad(s, axial, name=f"sample {i}", min_n=2) for i, s in enumerate(samples)]
@@ -527,8 +520,6 @@ def hotelling_second_order(x, y) -> dict:
     ----------
     x, y : array_like (n,) : r_i cos θ_i and r_i sin θ_i of the animals.
     """
-    from scipy.stats import f as fdist
-
     x, y = np.asarray(x, float), np.asarray(y, float)
     n = x.size
     if n < 3:

@@ -9,8 +9,13 @@ contrast), :mod:`.noisy` (noisy receptor-level stimuli), :mod:`.summary` (the fl
 metric dictionaries used by ``magretina predict`` and studies).
 """
 
+import numpy as np
+
+from ..errors import MagretinaError
+from ..mosaic import MosaicSpec, build_mosaic
 from .fisher import FisherResult, fisher_information, make_setup
 from .noise import NOISE, CountModel, GaussianNoise, PoissonNoise, make_noise
+from .summary import predict_summary
 
 CAUTION = ("These are predictions of a model under stated assumptions (receptor mosaic, "
            "count and noise model, alignment hypothesis, response function), not "
@@ -30,9 +35,6 @@ OPTION_KEYS = ("density", "unit", "method", "seed", "pool_radius_deg", "flux_per
 
 def options_to_models(o, gain):
     """(MosaicSpec, CountModel) from a study's prediction options (see :func:`study_metrics`)."""
-    from ..errors import MagretinaError
-    from ..mosaic import MosaicSpec
-
     bad = sorted(set(o) - set(OPTION_KEYS))
     if bad:
         raise MagretinaError(f"metrics.options.prediction: unknown key(s) {', '.join(bad)}; "
@@ -60,11 +62,6 @@ def study_metrics(ctx) -> dict:
     :func:`renderer.predict.summary.predict_summary` (its names do not clash with the
     basic provider's).
     """
-    import numpy as np
-
-    from ..mosaic import build_mosaic
-    from .summary import predict_summary
-
     o = dict(getattr(ctx, "options", {}) or {})
     spec, counts = options_to_models(o, ctx.gain)
     key = (ctx.layout, spec)

@@ -41,11 +41,17 @@ from dataclasses import dataclass
 
 import numpy as np
 from numba import njit, prange
+from numpy.polynomial import legendre as npleg
+from scipy.interpolate import CubicSpline
 
 from .. import kernels, pipeline
 from ..errors import MagretinaError
+from ..eye.alignment import Alignment, Disorder, Tilt, axial_response
+from ..eye.alignment.averaging import legendre_coefficients, tilt_factors, vmf_factors
 from ..pose import Pose
 from ..response.base import LUT_SIZE, lut_nodes
+from ..response.legendre import Legendre
+from ..response.tabulated import Tabulated
 
 #: Nodes of the cubic Hermite table used for predictions.  With exact slopes at the
 #: nodes the interpolation error is h⁴/384·max|f⁗| (h = 2/1024: < 1e-13·max|f⁗|) and
@@ -85,11 +91,6 @@ def derivative_lut(response, product="singlet", n=LUT_SIZE) -> np.ndarray:
     the poles; anything else gets fourth-order differences of ``f`` (one-sided at
     ±1, error O(h⁴) with h = 2/(n − 1)).  Triplet signal s = 1 − f: the sign flips.
     """
-    from numpy.polynomial import legendre as npleg
-
-    from ..response.legendre import Legendre
-    from ..response.tabulated import Tabulated
-
     r = _axial(response)
     c = lut_nodes(n)
     if isinstance(r, Legendre):
@@ -178,8 +179,6 @@ class _TableAxial:
     axial = True
 
     def __init__(self, table):
-        from scipy.interpolate import CubicSpline
-
         t = np.asarray(table, dtype=np.float64)
         self._spline = CubicSpline(lut_nodes(t.size), t)
 
@@ -203,10 +202,6 @@ def eye_axial_response(alignment, response):
     (its in-plane average if it is full).  An alignment of unknown kind that changes
     the table is read through its own table (:class:`_TableAxial`).
     """
-    from ..eye.alignment import Alignment, Disorder, Tilt, axial_response
-    from ..eye.alignment.averaging import legendre_coefficients, tilt_factors, vmf_factors
-    from ..response.legendre import Legendre
-
     if isinstance(alignment, Tilt) and alignment.tilt_deg != 0.0:
         c = legendre_coefficients(response)
         return Legendre(c * tilt_factors(math.radians(alignment.tilt_deg), c.size - 1))
@@ -220,10 +215,6 @@ def eye_axial_response(alignment, response):
 
 def _direct_fn(r, product):
     """Table-free f (or 1 − f) of an axial response; complex-safe for Legendre series."""
-    from numpy.polynomial import legendre as npleg
-
-    from ..response.legendre import Legendre
-
     if isinstance(r, Legendre):
         coeffs = r.coeffs
         f = lambda c: npleg.legval(c, coeffs)  # noqa: E731

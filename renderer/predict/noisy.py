@@ -13,9 +13,11 @@ BT.709 weighting of linear RGB.  A model prediction, not an animal's percept.
 from __future__ import annotations
 
 import numpy as np
+from scipy.spatial import cKDTree
 
 from .. import kernels, pipeline
 from ..errors import MagretinaError
+from ..scene import Scene, dusk
 
 #: Rec. ITU-R BT.709 luminance weights of linear R, G, B.
 BT709 = np.array([0.2126, 0.7152, 0.0722])
@@ -90,10 +92,6 @@ def render_noisy(field, pose, layout, response, view, mosaic, counts, scene=None
     -------
     image : (H, W, 3) float32 linear light in [0, 1]
     """
-    from scipy.spatial import cKDTree
-
-    from ..scene import Scene, dusk
-
     if scene is None:
         scene = dusk(2048)
     elif not isinstance(scene, Scene):

@@ -4,7 +4,7 @@ Registry: ``REGISTRY`` maps a response kind used in configuration files to its c
 Adding a response model is one new file here and one line in the registry.
 """
 
-from .base import LUT_SIZE, AxialResponse, lut_nodes
+from .base import LUT_SIZE, PRODUCTS, AxialResponse, lut_nodes
 from .legendre import Legendre
 from .tabulated import Tabulated
 from .harmonic import SphericalHarmonic
@@ -17,4 +17,4 @@ REGISTRY = {
     "spin-table": SpinTable,
 }
 
-__all__ = ["AxialResponse", "Legendre", "Tabulated", "LUT_SIZE", "lut_nodes", "REGISTRY"]
+__all__ = ["AxialResponse", "Legendre", "Tabulated", "LUT_SIZE", "PRODUCTS", "lut_nodes", "REGISTRY"]

@@ -25,6 +25,10 @@ import numpy as np
 #: i.e. < 3e-8·max|f''|, far below any modulation a study resolves.
 LUT_SIZE = 4097
 
+#: Which reaction product drives the visual signal: s = f (singlet) or s = 1 − f
+#: (triplet).  The one list every layer (pipeline, predictions, study files, CLI) checks.
+PRODUCTS = ("singlet", "triplet")
+
 
 def lut_nodes(n: int = LUT_SIZE) -> np.ndarray:
     """The cos θ nodes of an axial lookup table: ``linspace(-1, 1, n)``."""

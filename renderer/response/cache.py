@@ -18,6 +18,10 @@ from pathlib import Path
 
 import numpy as np
 
+from ..errors import MagretinaError
+from ..inputs import load_npz_checked
+from ..io import atomic_write_bytes
+
 
 def cache_root() -> Path:
     """The cache directory: $MAGRETINA_CACHE, else ~/.cache/magretina."""
@@ -45,8 +49,6 @@ def save_npz_atomic(path, arrays: dict, meta: dict) -> Path:
     The file appears under ``path`` only when complete (see
     :func:`renderer.io.atomic_write_bytes`).
     """
-    from ..io import atomic_write_bytes
-
     buf = io.BytesIO()
     np.savez(buf, meta_json=np.array(json.dumps(meta, default=_json_default)), **arrays)
     atomic_write_bytes(path, buf.getvalue())
@@ -55,9 +57,6 @@ def save_npz_atomic(path, arrays: dict, meta: dict) -> Path:
 
 def load_npz(path):
     """(arrays dict, meta dict) from a file written by :func:`save_npz_atomic`."""
-    from ..errors import MagretinaError
-    from ..inputs import load_npz_checked
-
     z = load_npz_checked(path, "response table")
     arrays = {k: v for k, v in z.items() if k != "meta_json"}
     try:

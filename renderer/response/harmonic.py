@@ -22,6 +22,8 @@ from __future__ import annotations
 
 import numpy as np
 from scipy.integrate import lebedev_rule
+from scipy.optimize import minimize
+from scipy.spatial.transform import Rotation
 from scipy.special import ive, sph_harm_y_all
 
 from ..errors import MagretinaError
@@ -229,8 +231,6 @@ class SphericalHarmonic:
 
     def extremes(self, order: int = 131):
         """(min, argmin direction, max, argmax direction) sampled on a Lebedev grid (refined)."""
-        from scipy.optimize import minimize
-
         nodes, _ = lebedev_grid(order)
         vals = self.evaluate_dirs(nodes)
         out = []
@@ -282,8 +282,6 @@ class SphericalHarmonic:
         if a.shape != (3,) or not np.all(np.isfinite(a)) or np.linalg.norm(a) == 0:
             raise MagretinaError(f"rotation axis must be a non-zero 3-vector, got {axis!r}")
         a = a / np.linalg.norm(a)
-        from scipy.spatial.transform import Rotation
-
         # R maps the axis onto z; average about z keeps m = 0; rotate back
         r, _ = Rotation.align_vectors([[0.0, 0.0, 1.0]], [a])
         g = self.rotated(r)

@@ -6,8 +6,11 @@ spherical harmonics up to degree L (:mod:`.harmonic`).  Time reversal gives
 Φ_S(B) = Φ_S(−B), and Lebedev grids are inversion-symmetric, so only one node of
 each antipodal pair is solved.  The fit residual at the nodes (rms and max) is kept
 so a user can see whether L is enough.  Results are cached on disk by a hash of every
-parameter (:mod:`.cache`).  Tables are model predictions, not measurements.  This
-module does not do spin dynamics itself (:mod:`renderer.spin`).
+parameter (:mod:`.cache`).  :func:`compute_table` builds the same kind of table from
+any per-direction yield function (RF fields, Monte Carlo, large pairs), resumably
+through :func:`renderer.spin.planner.run_directions`.  Tables are model predictions,
+not measurements.  This module is the adapter from spin dynamics to responses: it
+calls :mod:`renderer.spin` and does no spin dynamics itself.
 """
 
 from __future__ import annotations
@@ -18,6 +21,9 @@ import math
 import numpy as np
 
 from ..errors import MagretinaError
+from ..spin import choose_method, singlet_yield
+from ..spin.hamiltonian import GAMMA_E
+from ..spin.planner import run_directions, run_key
 from . import cache
 from .harmonic import (SphericalHarmonic, degrees, dirs_to_angles, fit_quadrature,
                        lebedev_grid, lebedev_order_for, real_sph_harm)
@@ -46,6 +52,40 @@ def antipodal_pairs(nodes, tol=1e-10):
         partner[i] = j
     keep = np.array([i for i in range(n) if i <= partner[i]], dtype=np.int64)
     return keep, partner[keep]
+
+
+def _fit_even(lmax, nodes, weights, keep, partner, vals_keep):
+    """Fill every node from the solved ones and fit even real harmonics up to ``lmax``.
+
+    Parameters
+    ----------
+    lmax : int
+        Even harmonic degree.
+    nodes, weights : ndarray (N, 3), (N,)
+        Lebedev rule (unit directions, molecular frame).
+    keep, partner : ndarray (M,) of int
+        Solved node indices and the nodes that take the same value (Φ(B) = Φ(−B)).
+    vals_keep : ndarray (M,)
+        Φ at ``nodes[keep]``.
+
+    Returns
+    -------
+    values : ndarray (N,)
+    coeffs : ndarray ((lmax+1)²,)
+        Odd degrees set to zero (zero by symmetry; this removes round-off).
+    fit : dict
+        residual_rms, residual_max at the nodes, n_directions, n_solved.
+    """
+    values = np.empty(len(nodes))
+    values[keep] = vals_keep
+    values[partner] = vals_keep
+    coeffs = fit_quadrature(lmax, nodes, weights, values)
+    coeffs[degrees(lmax) % 2 == 1] = 0.0
+    resid = real_sph_harm(lmax, nodes) @ coeffs - values
+    fit = {"residual_rms": float(np.sqrt(np.mean(resid**2))),
+           "residual_max": float(np.max(np.abs(resid))), "n_directions": int(len(nodes)),
+           "n_solved": int(len(keep))}
+    return values, coeffs, fit
 
 
 class SpinTable(SphericalHarmonic):
@@ -138,8 +178,6 @@ class SpinTable(SphericalHarmonic):
 
 def table_params(pair, field_T, lmax, order, method) -> dict:
     """Everything the table depends on (the cache key is the hash of this)."""
-    from ..spin.hamiltonian import GAMMA_E
-
     return {"table_version": TABLE_VERSION, "gamma_e": GAMMA_E, "pair": pair.describe(),
             "field_T": float(field_T), "lmax": int(lmax), "lebedev_order": int(order),
             "method": method}
@@ -172,8 +210,6 @@ def compute_spin_table(pair, field_T, lmax=DEFAULT_LMAX, order=None, method="aut
     -------
     SpinTable
     """
-    from ..spin import choose_method, singlet_yield
-
     b = float(field_T)
     if not math.isfinite(b) or b < 0:
         raise MagretinaError(f"field magnitude = {field_T!r} T is out of range; allowed [0, inf)")
@@ -203,19 +239,56 @@ def compute_spin_table(pair, field_T, lmax=DEFAULT_LMAX, order=None, method="aut
     if progress is not None:  # the partner nodes cost nothing
         progress(len(nodes) - len(keep))
     vals_keep = np.asarray(singlet_yield(pair, b * nodes[keep], method=resolved, progress=progress))
-    values = np.empty(len(nodes))
-    values[keep] = vals_keep
-    values[partner] = vals_keep
-    coeffs = fit_quadrature(lmax, nodes, weights, values)
-    coeffs[degrees(lmax) % 2 == 1] = 0.0  # zero by symmetry; remove round-off
-    fitted = real_sph_harm(lmax, nodes) @ coeffs
-    resid = fitted - values
-    m = {**params, "cache_key": key, "residual_rms": float(np.sqrt(np.mean(resid**2))),
-         "residual_max": float(np.max(np.abs(resid))), "n_directions": int(len(nodes)),
-         "n_solved": int(len(keep)), "dim": int(pair.dim),
+    values, coeffs, fit = _fit_even(lmax, nodes, weights, keep, partner, vals_keep)
+    m = {**params, "cache_key": key, **fit, "dim": int(pair.dim),
          "created_utc": _dt.datetime.now(_dt.timezone.utc).isoformat(timespec="seconds"),
          "note": "model prediction of a radical-pair hypothesis, not a measurement"}
     if use_cache:
         cache.store(CACHE_KIND, key, {"coeffs": coeffs, "nodes": nodes, "values": values}, m)
     m.update(extra)
+    return SpinTable(coeffs, nodes=nodes, values=values, meta=m)
+
+
+def compute_table(fn, field_T, params, *, lmax=16, order=None, run_dir=None, progress=None,
+                  meta=None, inversion_symmetric=True, n_workers=1):
+    """A full-sphere SpinTable from a per-direction yield function, resumably.
+
+    Parameters
+    ----------
+    fn : callable
+        Φ for one field vector (T, molecular frame).
+    field_T : float
+        |B| (T).
+    params : dict
+        Everything ``fn`` depends on (the run key is its hash).
+    lmax, order : int
+        Harmonic degree and Lebedev order (as in ``compute_spin_table``).
+    inversion_symmetric : bool
+        Solve only one node of each antipodal pair (Φ(B) = Φ(−B)).
+    n_workers : int
+        Directions evaluated at once (threads); see
+        :func:`renderer.spin.planner.run_directions`.
+
+    Returns
+    -------
+    SpinTable
+    """
+    lmax = int(lmax)
+    if lmax < 0 or lmax % 2:
+        raise MagretinaError(f"l_max = {lmax} must be an even degree >= 0")
+    order = lebedev_order_for(2 * lmax + 5) if order is None else int(order)
+    nodes, weights = lebedev_grid(order)
+    b = float(field_T)
+    if inversion_symmetric:
+        keep, partner = antipodal_pairs(nodes)
+    else:
+        keep, partner = np.arange(len(nodes)), np.arange(len(nodes))
+    full = {**params, "field_T": b, "lmax": lmax, "lebedev_order": order,
+            "inversion_symmetric": bool(inversion_symmetric)}
+    key = run_key(full)
+    vals = run_directions(fn, b * nodes[keep], key, run_dir=run_dir, progress=progress,
+                          n_workers=n_workers)
+    values, coeffs, fit = _fit_even(lmax, nodes, weights, keep, partner, vals)
+    m = {**full, "run_key": key, **fit,
+         "note": "model prediction of a radical-pair hypothesis, not a measurement", **(meta or {})}
     return SpinTable(coeffs, nodes=nodes, values=values, meta=m)

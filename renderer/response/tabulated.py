@@ -16,11 +16,10 @@ from scipy.interpolate import CubicSpline
 
 from ..errors import MagretinaError
 from .base import AxialResponse
+from ..inputs import read_csv_rows
 
 
 def _read_two_columns(path):
-    from ..inputs import read_csv_rows
-
     rows = []
     for lineno, row in enumerate(read_csv_rows(path, "response table"), start=1):
         if not row or row[0].strip().startswith("#"):

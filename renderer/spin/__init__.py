@@ -16,6 +16,9 @@ Describing a pair (:mod:`.system`, units mT and s⁻¹, molecular frame)::
     RadicalPair(a, b, k_s, k_t, exchange_mT=0.0, dipolar_mT=None, g_a=None, g_b=None,
                 initial="singlet" | "triplet" | singlet fraction p in [0, 1])
     point_dipolar_mT(distance_nm, direction) -> (3, 3) mT
+
+Costs before a run (:mod:`.planner`)::
+
     estimate_memory_bytes(pair, method), check_memory(pair, method)
 
 Operators (:mod:`.operators`, dimensionless, complex128, basis m = s, ..., −s)::
@@ -68,8 +71,9 @@ from .hamiltonian import (GAMMA_E, RAD_S_PER_MT, SpinOperators, electron_operato
 from .operators import embed, embed_vector, kron_all, spin_matrices
 from .quantum import direction_information
 from .solvers import SOLVERS, choose_method, singlet_yield, yields
-from .system import (G_FREE, Nucleus, Radical, RadicalPair, check_memory,
-                     estimate_memory_bytes, point_dipolar_mT)
+from .definition import list_presets, load_pair, read_definition
+from .planner import check_memory, estimate_memory_bytes
+from .system import G_FREE, Nucleus, Radical, RadicalPair, point_dipolar_mT
 
 __all__ = [
     "Nucleus", "Radical", "RadicalPair", "singlet_yield", "yields", "SOLVERS", "choose_method",
@@ -80,10 +84,3 @@ __all__ = [
     "check_memory", "estimate_memory_bytes", "direction_information", "load_pair", "list_presets", "read_definition",
 ]
 
-
-def __getattr__(name):
-    # definition files pull in tomllib and package data; load them on first use only
-    if name in ("load_pair", "list_presets", "read_definition"):
-        from . import definition
-        return getattr(definition, name)
-    raise AttributeError(name)

@@ -62,6 +62,7 @@ from scipy.spatial.transform import Rotation
 
 from ..errors import ConfigError, MagretinaError
 from .system import Nucleus, Radical, RadicalPair, point_dipolar_mT
+from ..inputs import read_toml
 
 FORMAT = "magretina-radical-pair/1"
 _TOP = {"format", "name", "description", "source", "axis_convention", "pair", "radical_a",
@@ -268,8 +269,6 @@ def parse_definition(data: dict, source="definition", k_s=None, k_t=None,
 
 def read_definition(path, k_s=None, k_t=None, orientation=None) -> RadicalPair:
     """Read a radical-pair definition file (TOML); see the module docstring for the format."""
-    from ..inputs import read_toml
-
     path = os.fspath(path)
     data = read_toml(path, "radical-pair definition")
     return parse_definition(data, source=path, k_s=k_s, k_t=k_t, orientation=orientation)
@@ -303,8 +302,6 @@ def preset_path(name: str) -> str:
 def preset_metadata(name_or_path: str) -> dict:
     """Top-level text fields (name, description, source, axis_convention, status,
     relative_orientation) of a file or preset; status defaults to "primary"."""
-    from ..inputs import read_toml
-
     path = name_or_path if os.path.isfile(name_or_path) else preset_path(name_or_path)
     data = read_toml(path, "radical-pair definition")
     out = {k: data[k] for k in ("name", "description", "source", "axis_convention",

@@ -38,6 +38,7 @@ from scipy.signal import fftconvolve
 from threadpoolctl import threadpool_limits
 
 from ..errors import MagretinaError
+from . import separable
 from .hamiltonian import radical_operators
 from .system import Nucleus, Radical, RadicalPair
 
@@ -467,8 +468,6 @@ DEFAULT_TOL = 1e-6
 
 def applicable(pair: RadicalPair):
     """(ok, reason): the separable solver's domain (equal rates, no inter-radical coupling)."""
-    from . import separable
-
     return separable.applicable(pair)
 
 

@@ -25,7 +25,7 @@ import math
 import numpy as np
 import scipy.sparse as sp
 from scipy.linalg import expm
-from scipy.sparse.linalg import expm_multiply
+from scipy.sparse.linalg import eigsh, expm_multiply
 from scipy.special import comb
 from threadpoolctl import threadpool_limits
 
@@ -155,8 +155,6 @@ def spectral_span(h) -> float:
     if n <= DENSE_LIMIT:
         e = np.linalg.eigvalsh(h.toarray())
         return float(e[-1] - e[0])
-    from scipy.sparse.linalg import eigsh
-
     hi = eigsh(h, k=1, which="LA", tol=1e-4, return_eigenvectors=False)[0]
     lo = eigsh(h, k=1, which="SA", tol=1e-4, return_eigenvectors=False)[0]
     return float(hi - lo)

@@ -10,8 +10,9 @@ a few, which is what a user needs to decide whether to start.
 
 :func:`run_directions` evaluates a yield function direction by direction, caching
 every result in its own small file (written atomically), so an interrupted run
-resumes where it stopped; :func:`compute_table` fits the results into the spine's
-:class:`renderer.response.spin_table.SpinTable`.  This module does no physics.
+resumes where it stopped (:func:`renderer.response.spin_table.compute_table` fits the
+results into a table).  :func:`estimate_memory_bytes` and :func:`check_memory` guard
+every solver call.  This module does no physics.
 """
 
 from __future__ import annotations
@@ -20,13 +21,23 @@ import hashlib
 import json
 import math
 import os
+from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass, field
 from pathlib import Path
 
 import numpy as np
+from threadpoolctl import threadpool_limits
 
 from ..errors import MagretinaError
-from .system import RadicalPair, memory_limit_bytes
+from ..io import atomic_write_text
+from .hamiltonian import GAMMA_E, RAD_S_PER_MT
+from .large import radical_blocks, spacing_for_tolerance
+from .montecarlo import DENSE_LIMIT, n_time_steps
+from .system import RadicalPair
+
+#: Default memory ceiling for one solver call (bytes); override with the environment
+#: variable MAGRETINA_SPIN_MEMORY_GIB.
+DEFAULT_MEMORY_LIMIT = 4 * 2**30
 
 # Machine rates measured here (2 cores, numpy/OpenBLAS, numba); see bench/spin_large.py.
 #: seconds per n³ of a complex Hermitian eigen-decomposition
@@ -115,15 +126,11 @@ def _fmt_b(b):
 
 
 def _block_dims(radical):
-    from .large import radical_blocks
-
     return [sub.dim for _, sub in radical_blocks(radical)]
 
 
 def spectral_span_estimate(pair: RadicalPair, field_T: float) -> float:
     """Upper estimate (rad/s) of a radical's line span: Zeeman + Σ |A| I, worst radical."""
-    from .hamiltonian import GAMMA_E, RAD_S_PER_MT
-
     spans = []
     for rad in (pair.a, pair.b):
         w = GAMMA_E * field_T
@@ -144,8 +151,6 @@ def montecarlo_seconds(pair: RadicalPair, field_T=50e-6, n_samples=256) -> float
     multiply-adds, BLAS); above it a sparse Krylov propagation (≈ 6 nnz per sample
     and step).
     """
-    from .montecarlo import DENSE_LIMIT, n_time_steps
-
     n = pair.dim
     kmin = min(pair.k_s, pair.k_t) if pair.k_t > 0 else pair.k_s
     steps = n_time_steps(math.log(1e9) / kmin, 1.05 * 2 * spectral_span_estimate(pair, field_T))
@@ -158,8 +163,6 @@ def montecarlo_seconds(pair: RadicalPair, field_T=50e-6, n_samples=256) -> float
 
 def montecarlo_memory(pair: RadicalPair, n_samples=256) -> int:
     """Peak bytes of the Monte Carlo path: propagator (dense) or sparse H, sample states."""
-    from .montecarlo import DENSE_LIMIT
-
     n = pair.dim
     states = 16 * 4 * n * min(n_samples, max(1, 2**27 // (16 * n)))
     if n <= DENSE_LIMIT:
@@ -175,8 +178,6 @@ def estimate(pair: RadicalPair, field_T=50e-6, *, tol=1e-6, n_samples=256, rf_ha
     -------
     list of MethodEstimate
     """
-    from .large import spacing_for_tolerance
-
     n = pair.dim
     da, db = pair.a.dim, pair.b.dim
     sep_ok = pair.equal_rates and not pair.coupled
@@ -324,8 +325,6 @@ def run_directions(fn, fields_T, key, *, run_dir=None, progress=None, n_workers=
         Interrupting (Ctrl-C) loses at most the direction in flight; calling again
         with the same key resumes.
     """
-    from ..io import atomic_write_text
-
     b = np.asarray(fields_T, dtype=np.float64).reshape(-1, 3)
     folder = Path(run_dir or default_run_dir()) / key
     folder.mkdir(parents=True, exist_ok=True)
@@ -356,10 +355,6 @@ def run_directions(fn, fields_T, key, *, run_dir=None, progress=None, n_workers=
             if progress is not None:
                 progress(1)
         return out
-    from concurrent.futures import ThreadPoolExecutor
-
-    from threadpoolctl import threadpool_limits
-
     # one BLAS thread per worker for the whole pool (nested limits inside fn then agree)
     with threadpool_limits(1, user_api="blas"):
         pool = ThreadPoolExecutor(max_workers=int(n_workers))
@@ -373,56 +368,52 @@ def run_directions(fn, fields_T, key, *, run_dir=None, progress=None, n_workers=
     return out
 
 
-def compute_table(fn, field_T, params, *, lmax=16, order=None, run_dir=None, progress=None,
-                  meta=None, inversion_symmetric=True, n_workers=1):
-    """A full-sphere SpinTable from a per-direction yield function, resumably.
+# --------------------------------------------------------------------------------------
+# memory estimates
+# --------------------------------------------------------------------------------------
 
-    Parameters
-    ----------
-    fn : callable
-        Φ for one field vector (T, molecular frame).
-    field_T : float
-        |B| (T).
-    params : dict
-        Everything ``fn`` depends on (the run key is its hash).
-    lmax, order : int
-        Harmonic degree and Lebedev order (as in ``compute_spin_table``).
-    inversion_symmetric : bool
-        Solve only one node of each antipodal pair (Φ(B) = Φ(−B)).
-    n_workers : int
-        Directions evaluated at once (threads); see :func:`run_directions`.
+def memory_limit_bytes() -> int:
+    """The memory ceiling for one solver call (env MAGRETINA_SPIN_MEMORY_GIB, default 4 GiB)."""
+    v = os.environ.get("MAGRETINA_SPIN_MEMORY_GIB")
+    if v is None:
+        return DEFAULT_MEMORY_LIMIT
+    try:
+        return int(float(v) * 2**30)
+    except ValueError:
+        raise MagretinaError(f"environment variable MAGRETINA_SPIN_MEMORY_GIB = {v!r} must be a "
+                             f"number of GiB") from None
 
-    Returns
-    -------
-    renderer.response.spin_table.SpinTable
+
+def estimate_memory_bytes(pair: RadicalPair, method: str) -> int:
+    """Peak working memory (bytes) of one direction for a solver, estimated before allocating.
+
+    The counts are the dense complex128 arrays each solver holds at once (16 bytes
+    per entry): eigenbasis ≈ 6 N² (H, eigenvectors, projected P, weights), liouville
+    ≈ 8 N² (H_eff, Schur form and vectors, right-hand side, solution, LAPACK work),
+    separable ≈ 8 (n_A² + n_B²) + per-radical operators; N = dim A · dim B.
     """
-    from ..response.harmonic import (degrees, fit_quadrature, lebedev_grid, lebedev_order_for,
-                                     real_sph_harm)
-    from ..response.spin_table import SpinTable, antipodal_pairs
+    n = pair.dim
+    if method == "eigenbasis":
+        return 16 * 6 * n * n
+    if method == "liouville":
+        return 16 * 8 * n * n
+    if method == "separable":
+        na, nb = pair.a.dim, pair.b.dim
+        return 16 * 8 * (na * na + nb * nb)
+    if method == "spectral":
+        return {e.method: e for e in estimate(pair)}["spectral"].memory_bytes
+    raise ValueError(method)
 
-    lmax = int(lmax)
-    if lmax < 0 or lmax % 2:
-        raise MagretinaError(f"l_max = {lmax} must be an even degree >= 0")
-    order = lebedev_order_for(2 * lmax + 5) if order is None else int(order)
-    nodes, weights = lebedev_grid(order)
-    b = float(field_T)
-    if inversion_symmetric:
-        keep, partner = antipodal_pairs(nodes)
-    else:
-        keep, partner = np.arange(len(nodes)), np.arange(len(nodes))
-    full = {**params, "field_T": b, "lmax": lmax, "lebedev_order": order,
-            "inversion_symmetric": bool(inversion_symmetric)}
-    key = run_key(full)
-    vals = run_directions(fn, b * nodes[keep], key, run_dir=run_dir, progress=progress,
-                          n_workers=n_workers)
-    values = np.empty(len(nodes))
-    values[keep] = vals
-    values[partner] = vals
-    coeffs = fit_quadrature(lmax, nodes, weights, values)
-    coeffs[degrees(lmax) % 2 == 1] = 0.0
-    resid = real_sph_harm(lmax, nodes) @ coeffs - values
-    m = {**full, "run_key": key, "residual_rms": float(np.sqrt(np.mean(resid**2))),
-         "residual_max": float(np.max(np.abs(resid))), "n_directions": int(len(nodes)),
-         "n_solved": int(len(keep)),
-         "note": "model prediction of a radical-pair hypothesis, not a measurement", **(meta or {})}
-    return SpinTable(coeffs, nodes=nodes, values=values, meta=m)
+
+def check_memory(pair: RadicalPair, method: str, limit=None) -> int:
+    """Raise MagretinaError if ``method`` would need more than ``limit`` bytes; return the estimate."""
+    need = estimate_memory_bytes(pair, method)
+    lim = memory_limit_bytes() if limit is None else int(limit)
+    if need > lim:
+        raise MagretinaError(
+            f"radical pair of Hilbert dimension {pair.dim} (nuclear multiplicity "
+            f"{pair.nuclear_multiplicity}) is too large: solver '{method}' would need about "
+            f"{need / 2**30:.3g} GiB, above the limit of {lim / 2**30:.3g} GiB "
+            f"(MAGRETINA_SPIN_MEMORY_GIB). Use fewer nuclei, combine equivalent nuclei, "
+            f"or equal rates without inter-radical coupling (solver 'separable').")
+    return need

@@ -19,13 +19,13 @@ This module computes, as a function of the field direction in the molecular fram
 The derivatives of ρ̄ are exact: ρ̄ solves k ρ̄ + i[H, ρ̄] = k ρ0, so ∂ρ̄ solves
 k ∂ρ̄ + i[H, ∂ρ̄] = −i[∂H, ρ̄], elementwise in the eigenbasis of H.  Both informations
 are model predictions of a hypothesis, not measurements.  Not for unequal rates (ρ̄
-then needs the full Liouvillian) and not for relaxation; the yield tables themselves
-live in :mod:`renderer.response.spin_table`.
+then needs the full Liouvillian) and not for relaxation; full-sphere tables of these
+informations (cached) are :mod:`renderer.response.information_table`, the yield tables
+:mod:`renderer.response.spin_table`.
 """
 
 from __future__ import annotations
 
-import datetime as _dt
 import math
 
 import numpy as np
@@ -41,11 +41,10 @@ RANK_RTOL = 1e-10
 #: family of density operators has exactly zero there (it would turn negative otherwise).
 SUPPORT_RTOL = 1e-6
 KINDS = ("quantum", "yield")
-INFO_TABLE_VERSION = 1
-CACHE_KIND = "information-tables"
 
 
-def _check_pair(pair):
+def check_pair(pair):
+    """Raise MagretinaError unless ``pair`` is a RadicalPair with equal rates (k_S = k_T)."""
     if not isinstance(pair, RadicalPair):
         raise MagretinaError(f"pair must be a renderer.spin.RadicalPair, got {type(pair).__name__}")
     if not pair.equal_rates:
@@ -182,7 +181,7 @@ def time_averaged_state(pair, field_T):
         ρ̄ = k ∫ e^{−kt} e^{−iHt} ρ0 e^{iHt} dt, ρ0 the pair's initial state
         (Tr ρ0 = 1); Tr(P_S ρ̄) is the singlet yield.
     """
-    _check_pair(pair)
+    check_pair(pair)
     b = np.asarray(field_T, dtype=np.float64).reshape(3)
     ops = pair_operators(pair)
     q = singlet_isometry(pair)
@@ -216,7 +215,7 @@ def direction_information(pair, field_T, kind="quantum"):
     """
     if kind not in KINDS:
         raise MagretinaError(f"kind = {kind!r} is not known; allowed: {', '.join(KINDS)}")
-    _check_pair(pair)
+    check_pair(pair)
     b, r = _field(field_T)
     n = b / r
     th = math.acos(max(-1.0, min(1.0, n[2])))
@@ -248,7 +247,7 @@ def information_on_directions(pair, field_T, dirs, progress=None):
         field direction along (e_θ, e_φ) of :func:`tangent_frame`, rad⁻²;
         ``phi_s`` (K,) singlet yields; ``grad`` (K, 2) yield gradient (rad⁻¹).
     """
-    _check_pair(pair)
+    check_pair(pair)
     b = float(field_T)
     if not math.isfinite(b) or b <= 0:
         raise MagretinaError(f"field magnitude = {field_T!r} T is out of range; allowed (0, inf)")
@@ -266,74 +265,6 @@ def information_on_directions(pair, field_T, dirs, progress=None):
     return {"quantum": kq, "yield": kc, "phi_s": phi, "grad": grad}
 
 
-class InformationTable:
-    """Full-sphere table of quantum and yield Fisher information at fixed |B|.
-
-    Attributes
-    ----------
-    nodes : ndarray (K, 3)      Lebedev directions in the molecular frame (unit vectors)
-    weights : ndarray (K,)      quadrature weights (sum 1)
-    quantum, yield_ : ndarray (K, 2, 2)   information in the tangent frame (e_θ, e_φ), rad⁻²
-    phi_s : ndarray (K,)        singlet yield at each node
-    meta : dict                 parameters and provenance (field_T, pair, cache key...)
-    """
-
-    def __init__(self, nodes, weights, quantum, yield_, phi_s, meta):
-        self.nodes, self.weights = nodes, weights
-        self.quantum, self.yield_, self.phi_s = quantum, yield_, phi_s
-        self.meta = meta
-
-    @property
-    def trace_quantum(self):
-        """Tr F_Q per node (rad⁻²): total information about a small rotation, both axes."""
-        return np.trace(self.quantum, axis1=1, axis2=2)
-
-    @property
-    def trace_yield(self):
-        """Tr F_C per node (rad⁻²); the yield information is rank one."""
-        return np.trace(self.yield_, axis1=1, axis2=2)
-
-    def ratio(self):
-        """Quantum over yield information along the yield gradient, per node, ≥ 1 by the
-        quantum Cramér–Rao bound (NaN where the yield information is below 1 % of its
-        peak)."""
-        tc = self.trace_yield
-        # the yield information's eigenvector is the gradient direction
-        lam, vec = np.linalg.eigh(self.yield_)
-        g = vec[:, :, 1]
-        along = np.einsum("ki,kij,kj->k", g, self.quantum, g)
-        # near stationary points of the yield the ratio diverges and says nothing about
-        # the compass: report it only where the yield carries >= 1 % of its peak information
-        ok = tc >= 1e-2 * tc.max() if tc.size and tc.max() > 0 else np.zeros(tc.shape, bool)
-        with np.errstate(divide="ignore", invalid="ignore"):
-            return np.where(ok, along / np.where(ok, tc, 1.0), np.nan)
-
-    def summary(self) -> dict:
-        """Sphere means and extremes of both informations and of their ratio."""
-        r = self.ratio()
-        ok = np.isfinite(r)
-        w = self.weights
-        return {"field_uT": self.meta["field_T"] * 1e6,
-                "mean_trace_quantum_rad-2": float(np.sum(w * self.trace_quantum)),
-                "mean_trace_yield_rad-2": float(np.sum(w * self.trace_yield)),
-                "max_trace_quantum_rad-2": float(self.trace_quantum.max()),
-                "max_trace_yield_rad-2": float(self.trace_yield.max()),
-                "ratio_along_gradient_min": float(r[ok].min()) if ok.any() else float("nan"),
-                "ratio_along_gradient_median": float(np.median(r[ok])) if ok.any() else float("nan"),
-                "ratio_along_gradient_max": float(r[ok].max()) if ok.any() else float("nan"),
-                "n_directions": int(len(self.nodes))}
-
-    def arrays(self) -> dict:
-        return {"nodes": self.nodes, "weights": self.weights, "quantum": self.quantum,
-                "yield": self.yield_, "phi_s": self.phi_s}
-
-    def save(self, path):
-        """Write the table as .npz (atomically) with its metadata as JSON."""
-        from ..response.cache import save_npz_atomic
-
-        return save_npz_atomic(path, self.arrays(), self.meta)
-
-
 def antipode_transform(n):
     """T (2, 2) with F_C(−n) = T F_C(n) Tᵀ for the yield information, tangent frames at −n, n.
 
@@ -343,79 +274,3 @@ def antipode_transform(n):
     (the dispersive part of k/(k + iω) changes sign), so it is computed at every node.
     """
     return -tangent_frame(-n) @ tangent_frame(n).T
-
-
-def information_params(pair, field_T, order) -> dict:
-    """Everything an information table depends on (the cache key is the hash of this)."""
-    from .hamiltonian import GAMMA_E
-
-    return {"info_table_version": INFO_TABLE_VERSION, "gamma_e": GAMMA_E,
-            "pair": pair.describe(), "field_T": float(field_T), "lebedev_order": int(order)}
-
-
-def estimate_information_cost(pair, order):
-    """(bytes, flops) of an information table: two dense eigendecompositions and about
-    a dozen N×N complex products per Lebedev node."""
-    from ..response.harmonic import lebedev_grid
-
-    n = pair.dim
-    k = len(lebedev_grid(order)[0])
-    return 16 * 12 * n * n, k * (2 * 10 + 12 * 8) * n**3
-
-
-def compute_information_table(pair, field_T, order=17, use_cache=True, progress=None,
-                              meta=None) -> InformationTable:
-    """Full-sphere table of quantum and yield Fisher information (cached on disk).
-
-    Parameters
-    ----------
-    pair : RadicalPair (equal rates)
-    field_T : float
-        Field magnitude, tesla (> 0).
-    order : int
-        Lebedev order of the direction grid; every node is solved (the quantum
-        information is not symmetric under B → −B, see :func:`antipode_transform`).
-    use_cache : bool
-        Read and write the disk cache (kind "information-tables", beside the
-        "spin-tables" of the yield).
-    progress : callable, optional
-        Receives numbers of directions finished.
-    meta : dict, optional
-        Extra provenance stored with the table (preset name, source).
-
-    Returns
-    -------
-    InformationTable
-    """
-    from ..response import cache
-    from ..response.harmonic import lebedev_grid, lebedev_order_for
-    _check_pair(pair)
-    b = float(field_T)
-    if not math.isfinite(b) or b <= 0:
-        raise MagretinaError(f"field magnitude = {field_T!r} T is out of range; allowed (0, inf)")
-    order = int(order)
-    if lebedev_order_for(order) != order:
-        raise MagretinaError(f"Lebedev order {order} is not an available order")
-    params = information_params(pair, b, order)
-    key = cache.cache_key(params)
-    extra = dict(meta or {})
-    nodes, weights = lebedev_grid(order)
-    if use_cache:
-        hit = cache.lookup(CACHE_KIND, key)
-        if hit is not None:
-            a, m = hit
-            if progress is not None:
-                progress(len(a["nodes"]))
-            return InformationTable(a["nodes"], a["weights"], a["quantum"], a["yield"], a["phi_s"],
-                                    {**m, **extra, "from_cache": True})
-    res = information_on_directions(pair, b, nodes, progress=progress)
-    quantum, yield_, phi = res["quantum"], res["yield"], res["phi_s"]
-    m = {**params, "cache_key": key, "n_directions": int(len(nodes)), 
-         "dim": int(pair.dim), "frame": "tangent (e_theta, e_phi) at each node, rad^-2",
-         "created_utc": _dt.datetime.now(_dt.timezone.utc).isoformat(timespec="seconds"),
-         "note": "model prediction of a radical-pair hypothesis, not a measurement"}
-    table = InformationTable(nodes, weights, quantum, yield_, phi, m)
-    if use_cache:
-        cache.store(CACHE_KIND, key, table.arrays(), m)
-    table.meta = {**m, **extra}
-    return table

@@ -14,7 +14,8 @@ import numpy as np
 
 from ..errors import MagretinaError
 from . import eigenbasis, large, liouville, separable
-from .system import RadicalPair, check_memory
+from .planner import check_memory
+from .system import RadicalPair
 
 SOLVERS = {
     "separable": separable,

@@ -3,9 +3,8 @@
 This module states *what* is simulated, in the trade's units (hyperfine couplings and
 exchange/dipolar couplings in mT, rates in s⁻¹), and validates it at construction:
 tensors must be finite, 3×3 and symmetric, rates non-negative, spin quantum numbers
-multiples of 1/2.  It also estimates the memory a solver would need before anything
-large is allocated.  It does not build Hamiltonians (:mod:`.hamiltonian`) or solve
-anything (:mod:`.solvers`).
+multiples of 1/2.  It does not build Hamiltonians (:mod:`.hamiltonian`), solve
+anything (:mod:`.solvers`) or estimate costs (:mod:`.planner`).
 
 Frames: every tensor is given in one common *molecular frame* (the receptor frame;
 its z axis is the receptor axis that axial responses refer to).  Kronecker order of
@@ -16,7 +15,6 @@ space is (space of A) ⊗ (space of B).
 from __future__ import annotations
 
 import math
-import os
 from dataclasses import dataclass, replace
 
 import numpy as np
@@ -27,10 +25,6 @@ from .operators import check_spin, multiplicity
 
 #: Free-electron g-factor |g_e| (CODATA, from scipy.constants).
 G_FREE = abs(sc.physical_constants["electron g factor"][0])
-
-#: Default memory ceiling for one solver call (bytes); override with the environment
-#: variable MAGRETINA_SPIN_MEMORY_GIB.
-DEFAULT_MEMORY_LIMIT = 4 * 2**30
 
 
 def _freeze(a):
@@ -390,54 +384,3 @@ class RadicalPair:
                 "exchange_mT": self.exchange_mT,
                 "dipolar_mT": None if self.dipolar_mT is None else self.dipolar_mT.tolist(),
                 "initial": self.initial}
-
-
-# --- memory estimates ---------------------------------------------------------------
-
-def memory_limit_bytes() -> int:
-    """The memory ceiling for one solver call (env MAGRETINA_SPIN_MEMORY_GIB, default 4 GiB)."""
-    v = os.environ.get("MAGRETINA_SPIN_MEMORY_GIB")
-    if v is None:
-        return DEFAULT_MEMORY_LIMIT
-    try:
-        return int(float(v) * 2**30)
-    except ValueError:
-        raise MagretinaError(f"environment variable MAGRETINA_SPIN_MEMORY_GIB = {v!r} must be a "
-                             f"number of GiB") from None
-
-
-def estimate_memory_bytes(pair: RadicalPair, method: str) -> int:
-    """Peak working memory (bytes) of one direction for a solver, estimated before allocating.
-
-    The counts are the dense complex128 arrays each solver holds at once (16 bytes
-    per entry): eigenbasis ≈ 6 N² (H, eigenvectors, projected P, weights), liouville
-    ≈ 8 N² (H_eff, Schur form and vectors, right-hand side, solution, LAPACK work),
-    separable ≈ 8 (n_A² + n_B²) + per-radical operators; N = dim A · dim B.
-    """
-    n = pair.dim
-    if method == "eigenbasis":
-        return 16 * 6 * n * n
-    if method == "liouville":
-        return 16 * 8 * n * n
-    if method == "separable":
-        na, nb = pair.a.dim, pair.b.dim
-        return 16 * 8 * (na * na + nb * nb)
-    if method == "spectral":
-        from .planner import estimate
-
-        return {e.method: e for e in estimate(pair)}["spectral"].memory_bytes
-    raise ValueError(method)
-
-
-def check_memory(pair: RadicalPair, method: str, limit=None) -> int:
-    """Raise MagretinaError if ``method`` would need more than ``limit`` bytes; return the estimate."""
-    need = estimate_memory_bytes(pair, method)
-    lim = memory_limit_bytes() if limit is None else int(limit)
-    if need > lim:
-        raise MagretinaError(
-            f"radical pair of Hilbert dimension {pair.dim} (nuclear multiplicity "
-            f"{pair.nuclear_multiplicity}) is too large: solver '{method}' would need about "
-            f"{need / 2**30:.3g} GiB, above the limit of {lim / 2**30:.3g} GiB "
-            f"(MAGRETINA_SPIN_MEMORY_GIB). Use fewer nuclei, combine equivalent nuclei, "
-            f"or equal rates without inter-radical coupling (solver 'separable').")
-    return need

@@ -10,8 +10,8 @@ new-study`` are thin wrappers.  Outputs are predictions of a model, not
 measurements.
 """
 
-from .config import Study, load_study, validate
-from .expand import Plan, Shot, plan
+from .config import Study, validate
+from .expand import Plan, Shot, load_study, plan
 from .runner import dry_run, run_study
 
 __all__ = ["Study", "load_study", "validate", "Plan", "Shot", "plan", "dry_run", "run_study"]

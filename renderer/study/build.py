@@ -18,8 +18,16 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..errors import MagretinaError
-from .config import canonical_json, resolve_path
+from ..eye import load_layout
+from ..field import MODELS as SITE_MODELS
+from ..field import fixed
+from ..response import REGISTRY as RESPONSES
+from ..scene import Scene, dusk, uniform
+from ..views import REGISTRY as VIEWS
+from ..views import HeadPanorama
+from .schema import canonical_json, resolve_path
 from .sequences import SequenceContext, build_series
+from ..pipeline import check_signal_nonzero
 
 
 def build_layout(cfg, base_dir):
@@ -27,8 +35,6 @@ def build_layout(cfg, base_dir):
     per-eye overrides of ``[layout.eyes.NAME]`` (an eye's own alignment wins), then the
     eye movements of ``[layout.eye_offsets.NAME]`` (added to the placement angles, see
     :meth:`renderer.eye.Layout.moved`).  Errors name the key."""
-    from ..eye import load_layout
-
     src = resolve_path(base_dir, cfg["file"]) if cfg.get("file") else cfg.get("preset", "lateral")
     layout = load_layout(src)
     if cfg.get("alignment") is not None:
@@ -66,9 +72,7 @@ def build_layout(cfg, base_dir):
 
 
 def build_response(cfg, base_dir):
-    from ..response import REGISTRY
-
-    cls = REGISTRY[cfg["kind"]]
+    cls = RESPONSES[cfg["kind"]]
     if cfg.get("csv"):
         return cls.from_csv(resolve_path(base_dir, cfg["csv"]))
     kw = {k: v for k, v in cfg.items() if k not in ("kind", "product", "csv")}
@@ -76,9 +80,7 @@ def build_response(cfg, base_dir):
 
 
 def build_view(cfg):
-    from ..views import REGISTRY
-
-    return REGISTRY[cfg["kind"]](**{k: v for k, v in cfg.items() if k != "kind"})
+    return VIEWS[cfg["kind"]](**{k: v for k, v in cfg.items() if k != "kind"})
 
 
 class CachedView:
@@ -122,8 +124,6 @@ class CachedView:
 
 
 def build_scene(cfg, views, base_dir):
-    from ..scene import Scene, dusk, uniform
-
     widths = [v.shape[1] for v in views.values() if getattr(v, "equirect", False)]
     width = cfg.get("width") or max(widths + [256])
     if cfg["kind"] == "dusk":
@@ -161,16 +161,12 @@ def build_resources(cfg, base_dir, precompute=True) -> Resources:
     and their mean signal, views and their eyes, the scene file -- but keeps the
     views bare (no direction tables) and builds no metric grids.
     """
-    from ..views import HeadPanorama
-
     layout = build_layout(cfg["layout"], base_dir)
     responses = {"default": build_response(cfg["response"], base_dir)}
     products = {"default": cfg["response"].get("product", "singlet")}
     for name, r in cfg["responses"].items():
         responses[name] = build_response(r, base_dir)
         products[name] = r.get("product", "singlet")
-    from ..pipeline import check_signal_nonzero
-
     for name, resp in responses.items():
         # Refused here, before any frame, rather than in a worker at its first frame.
         check_signal_nonzero(resp, products[name],
@@ -206,29 +202,15 @@ def field_function(cfg):
     f = cfg["field"]
     model = f["model"]
     if model == "fixed":
-        from ..field import fixed
-
         v = fixed(f["total_uT"], f["inclination_deg"], f["declination_deg"]).ned_T
         return (lambda lat, lon, alt: np.tile(v, (np.size(lat), 1))), \
             {"model": "fixed", "source": "fixed vector from the study file"}
-    if model == "igrf":
-        from ..field.igrf import coefficient_file, igrf_ned_T
+    site_model = SITE_MODELS[model]
 
-        def fn(lat, lon, alt):
-            return igrf_ned_T(lat, lon, alt, f["date"])
+    def fn(lat, lon, alt):
+        return site_model.ned_T(lat, lon, alt, f["date"])
 
-        import os
-
-        return fn, {"model": "igrf", "date": f["date"], "source": "IGRF-14 via ppigrf ("
-                    + os.path.basename(coefficient_file()) + ")"}
-    from ..field import dipole
-
-    def fn_d(lat, lon, alt):
-        return np.stack([dipole(a, b, c, f["date"]).ned_T for a, b, c in zip(lat, lon, alt)]) \
-            if np.size(lat) else np.zeros((0, 3))
-
-    probe = dipole(0.0, 0.0, 0.0, f["date"])
-    return fn_d, {"model": "dipole", "date": f["date"], "source": probe.source}
+    return fn, {"model": model, "date": f["date"], "source": site_model.source}
 
 
 def build_frames(cfg, base_dir):

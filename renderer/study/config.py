@@ -35,7 +35,9 @@ its key path and the allowed values or range.  Unknown keys are always errors: a
 typo never falls back to a default.  Classes registered by other parts of the
 package (views, responses, eyes) are checked against their own constructor
 fields, so new options pass through without changes here.  This module builds no
-library objects (see :mod:`.build`) and does not expand sweeps (see :mod:`.expand`).
+library objects (see :mod:`.build`) and does not expand sweeps (see :mod:`.expand`,
+whose :func:`~.expand.load_study` reads, validates and checks the sweep axes in one
+call).
 """
 
 from __future__ import annotations
@@ -43,16 +45,29 @@ from __future__ import annotations
 import copy
 import datetime as _dt
 import hashlib
-import json
 import os
 from dataclasses import dataclass
 
+from ..budget import MAX_PIXELS, view_shape
 from ..defaults import DEFAULT_GAIN
+from ..display import make_display, parse_target
 from ..errors import ConfigError, MagretinaError, did_you_mean
-from .schema import REQUIRED, Key, check_passthrough, check_table, check_value
+from ..eye import Eye, Layout, preset_names
+from ..eye.alignment import parse_alignment
+from ..field import MODELS as SITE_MODELS
+from ..field.base import check_igrf_date
+from ..inputs import read_toml_bytes
+from ..response import PRODUCTS
+from ..response import REGISTRY as RESPONSES
+from ..views import REGISTRY as VIEWS
+from . import sequences
+from .metrics import PROVIDERS
+from .orientation_config import check_orientation
+from .schema import (REQUIRED, Key, canonical_json, check_passthrough, check_table, check_value,
+                     resolve_path)
 
-FIELD_MODELS = ("igrf", "dipole", "fixed")
-PRODUCTS = ("singlet", "triplet")
+#: Site models of the field registry, and a fixed vector given in the file.
+FIELD_MODELS = (*SITE_MODELS, "fixed")
 SCENE_KINDS = ("dusk", "uniform", "file")
 PREVIEWS = ("none", "gif", "apng")
 VIDEOS = ("none", "mp4", "lossless")
@@ -182,38 +197,12 @@ class Study:
         return config_digest(self.resolved)
 
 
-def canonical_json(obj) -> str:
-    return json.dumps(obj, sort_keys=True, separators=(",", ":"), default=str)
-
-
 def config_digest(resolved) -> str:
     return hashlib.sha256(canonical_json(resolved).encode()).hexdigest()
 
 
 def read_study(path) -> tuple[bytes, dict]:
-    from ..inputs import read_toml_bytes
-
     return read_toml_bytes(os.fspath(path), "study file")
-
-
-def load_study(path) -> Study:
-    """Read and validate a study file; raises ConfigError listing every problem."""
-    data, raw = read_study(path)
-    base = os.path.dirname(os.path.abspath(os.fspath(path)))
-    problems = []
-    resolved = validate(raw, base, problems)
-    if problems:
-        # Also report bad sweep values now, not after the first round of fixes.
-        from .expand import build_axes
-
-        if isinstance(resolved.get("sweep"), dict):
-            build_axes(raw, base, resolved["sweep"], problems, known=set(problems))
-        raise ConfigError(problems, source=os.fspath(path))
-    return Study(os.fspath(path), base, hashlib.sha256(data).hexdigest(), raw, resolved)
-
-
-def resolve_path(base_dir, p) -> str:
-    return p if os.path.isabs(p) else os.path.join(base_dir, p)
 
 
 def _file_key(path, value, base_dir, problems):
@@ -294,14 +283,10 @@ def _v_display(raw, base_dir, out, problems):
 
 
 def _v_sequence(raw, base_dir, out, problems):
-    from . import sequences
-
     out["sequence"] = sequences.check_sequence(raw.get("sequence", {}), base_dir, problems)
 
 
 def _v_timeline(raw, base_dir, out, problems):
-    from . import sequences
-
     out["timeline"] = sequences.check_timeline(raw.get("timeline", {}), set(out["responses"]),
                                                problems)
 
@@ -321,8 +306,6 @@ def _v_sweep(raw, base_dir, out, problems):
 
 def _v_orientation(raw, base_dir, out, problems):
     if "orientation" in raw:  # only when present, so other studies resolve as before
-        from .orientation import check_orientation
-
         out["orientation"] = check_orientation(raw["orientation"], set(out["responses"]),
                                                problems)
     else:
@@ -459,8 +442,6 @@ def _check_field(tbl, raw, problems):
             problems.append(f"field.date: missing (required for field.model = {model!r}; "
                             f"ISO 8601 date within 1900-01-01..2030-01-01)")
         else:
-            from ..field.base import check_igrf_date
-
             try:
                 when = check_igrf_date(f["date"])
                 f["date"] = when.date().isoformat() if when.time() == _dt.time() else \
@@ -473,8 +454,6 @@ def _check_field(tbl, raw, problems):
 
 
 def _check_layout(tbl, base_dir, problems):
-    from ..eye import Eye, Layout, preset_names
-
     if not isinstance(tbl, dict):
         problems.append("layout: must be a table")
         return {}
@@ -529,8 +508,6 @@ def _check_layout(tbl, base_dir, problems):
 def _check_alignment(path, spec, problems) -> bool:
     """An alignment hypothesis: a mode name or a table {mode = ..., its keys}, checked
     by the hypothesis class itself (so every registered mode and its ranges apply)."""
-    from ..eye.alignment import parse_alignment
-
     if not isinstance(spec, (str, dict)):
         problems.append(f"{path} = {spec!r}: must be a mode name or a table "
                         f"{{mode = ..., ...}}")
@@ -548,16 +525,14 @@ def _check_alignment(path, spec, problems) -> bool:
 
 
 def check_response(path, tbl, base_dir, problems):
-    from ..response import REGISTRY
-
     if not isinstance(tbl, dict):
         problems.append(f"{path}: must be a table")
         return {}
     kind = tbl.get("kind")
-    if kind not in REGISTRY:
-        problems.append(f"{path}.kind = {kind!r}: allowed {', '.join(map(repr, REGISTRY))}")
+    if kind not in RESPONSES:
+        problems.append(f"{path}.kind = {kind!r}: allowed {', '.join(map(repr, RESPONSES))}")
         return dict(tbl)
-    cls = REGISTRY[kind]
+    cls = RESPONSES[kind]
     out = {"kind": kind}
     if "product" in tbl:
         if check_value(f"{path}.product", tbl["product"], Key(str, choices=PRODUCTS), problems):
@@ -580,8 +555,6 @@ def check_response(path, tbl, base_dir, problems):
 
 
 def _check_views(tbl, problems):
-    from ..views import REGISTRY
-
     out = {}
     if not isinstance(tbl, dict) or not tbl:
         problems.append("views: must hold at least one [views.NAME] table")
@@ -595,12 +568,10 @@ def _check_views(tbl, problems):
             problems.append(f"{path}: must be a table")
             continue
         kind = v.get("kind")
-        if kind not in REGISTRY:
-            problems.append(f"{path}.kind = {kind!r}: allowed {', '.join(map(repr, REGISTRY))}")
+        if kind not in VIEWS:
+            problems.append(f"{path}.kind = {kind!r}: allowed {', '.join(map(repr, VIEWS))}")
             continue
-        kw = check_passthrough(path, v, REGISTRY[kind], problems, reserved=("kind",))
-        from ..budget import MAX_PIXELS, view_shape
-
+        kw = check_passthrough(path, v, VIEWS[kind], problems, reserved=("kind",))
         shape = view_shape(kind, kw)
         if shape is not None and shape[0] * shape[1] > MAX_PIXELS:
             problems.append(f"{path}: {shape[1]} x {shape[0]} = {shape[0] * shape[1]:.3g} pixels; "
@@ -626,8 +597,6 @@ def _check_scene(s, base_dir, problems):
 def _check_display(d, base_dir, problems):
     """Build the display model once here so a bad table (its row named) or a missing
     gamma is reported before anything renders."""
-    from ..display import make_display, parse_target
-
     if d.get("table") is not None:
         _file_key("display.table", d["table"], base_dir, problems)
         if any(p.startswith("display.table") for p in problems):
@@ -661,8 +630,6 @@ def _check_output(out, problems):
 
 
 def _check_metrics(tbl, problems):
-    from .metrics import PROVIDERS
-
     if not isinstance(tbl, dict):
         problems.append("metrics: must be a table")
         return {}

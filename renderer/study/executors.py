@@ -24,9 +24,10 @@ import uuid
 
 from ..errors import MagretinaError
 from . import worker
+from .pipepool import PipePool
 
 EXECUTORS = ("local", "dask")
-_FUNCS = {"render": worker.render_chunk, "finish": worker.finish_shot}
+_FUNCS = worker.UNITS
 
 
 class InlineExecutor:
@@ -63,8 +64,6 @@ class LocalExecutor:
     name = "local"
 
     def __init__(self, resources, jobs, numba_threads=None, work_dir=None):
-        from .pipepool import PipePool
-
         # Fresh interpreters, not forks: forking a parent that already runs numba's
         # thread pool is unsafe; pipes, not multiprocessing queues, so that no named
         # semaphore is left in /dev/shm by a killed run.
@@ -111,7 +110,7 @@ class DaskExecutor:
     name = "dask"
 
     def __init__(self, resources, jobs, scheduler=None):
-        try:
+        try:  # deferred: dask is the optional [scale] extra
             from dask.distributed import Client, LocalCluster, as_completed
         except ImportError:
             raise MagretinaError("--executor dask needs the scale extra: pip install "

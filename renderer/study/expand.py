@@ -13,15 +13,19 @@ with its axis, position and the allowed range, before anything renders, at a cos
 that grows with the distinct values per table, not with shots x study.
 Per-shot seeds are spawned from ``study.seed`` with ``numpy.random.SeedSequence``.
 :func:`plan` builds every shot's frames and shared resources up front (the last
-validation step).  Nothing here renders.
+validation step).  :func:`load_study` reads and validates a study file and checks its
+sweep values in the same pass, so every problem is listed at once.  Nothing here
+renders.
 """
 
 from __future__ import annotations
 
 import copy
+import hashlib
 import itertools
 import json
 import math
+import os
 import re
 from dataclasses import dataclass, replace
 
@@ -29,7 +33,10 @@ import numpy as np
 
 from ..errors import ConfigError, MagretinaError
 from . import sequences
-from .config import Study, canonical_json, validate
+from .build import build_view, field_function, resources_key
+from .config import Study, read_study, validate
+from .schema import canonical_json
+from ..budget import check_frame_count, frame_limit
 
 _SEG = re.compile(r"^([A-Za-z_][A-Za-z0-9_\-]*)((?:\[\d+\])*)$")
 MAX_LISTED = 60
@@ -245,6 +252,30 @@ def check_axis_values(study_raw, base_dir, axes, problems, known=(), base=None, 
                     problems.append(f"{path} (key {ax.key}) value {j} = {ax.labels[j]}: {p}")
 
 
+def load_study(path) -> Study:
+    """Read and validate a study file; raises ConfigError listing every problem.
+
+    Parameters
+    ----------
+    path : path-like
+        The study TOML; relative paths inside it are resolved against its folder.
+
+    Returns
+    -------
+    Study
+    """
+    data, raw = read_study(path)
+    base = os.path.dirname(os.path.abspath(os.fspath(path)))
+    problems = []
+    resolved = validate(raw, base, problems)
+    if problems:
+        # Also report bad sweep values now, not after the first round of fixes.
+        if isinstance(resolved.get("sweep"), dict):
+            build_axes(raw, base, resolved["sweep"], problems, known=set(problems))
+        raise ConfigError(problems, source=os.fspath(path))
+    return Study(os.fspath(path), base, hashlib.sha256(data).hexdigest(), raw, resolved)
+
+
 @dataclass(frozen=True)
 class Shot:
     """One parameter combination: resolved config, coordinates on the axes, seed, frames."""
@@ -291,8 +322,6 @@ def plan(study: Study) -> Plan:
 
     Raises ConfigError with every problem found (deduplicated).
     """
-    from .build import field_function, resources_key
-
     problems = []
     raw = study.raw
     axes = collect_axes(study.resolved["sweep"], problems)
@@ -307,8 +336,6 @@ def plan(study: Study) -> Plan:
         else:
             groups.append([ax])
     dims = tuple((g[0].name, len(g[0].values), tuple(a.name for a in g)) for g in groups)
-    from ..budget import check_frame_count, frame_limit
-
     n_combos = math.prod(len(g[0].values) for g in groups)
     segs = {ax.name: parse_key_path(ax.key) for ax in axes}
     tables = {sg[0] for sg in segs.values()}
@@ -432,8 +459,6 @@ def frames_estimate(seq) -> int:
 
 
 def _check_outputs(p: Plan, problems):
-    from .build import build_view
-
     shapes = {}  # one view built per distinct view table (shots share most of them)
     for s in p.shots:
         out = s.config["output"]

@@ -20,22 +20,14 @@ from __future__ import annotations
 import csv
 import io
 import json
-import os
-import tempfile
 
 import numpy as np
+from PIL import Image
 
 from ..errors import MagretinaError
-from ..io import atomic_write_bytes
-
-
-def _tmp_beside(path, suffix):
-    folder = os.path.dirname(os.path.abspath(path))
-    os.makedirs(folder, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(prefix="." + os.path.basename(path) + ".", suffix=".tmp" + suffix,
-                               dir=folder)
-    os.close(fd)
-    return tmp
+from ..io import atomic_path, atomic_write_bytes
+from .expand import snake
+from .outputs import CAUTION
 
 
 def write_video(path, frames_u8, fps, video="mp4", codec="libx264rgb", crf=18) -> str:
@@ -49,7 +41,7 @@ def write_video(path, frames_u8, fps, video="mp4", codec="libx264rgb", crf=18) -
 
     Frames are never resized: a frame of odd width or height raises for yuv420p.
     """
-    import imageio.v2 as iio2
+    import imageio.v2 as iio2  # deferred: the ffmpeg plugin loads only when a video is written
 
     if video == "mp4":
         kw = dict(codec="libx264", pixelformat="yuv420p", output_params=["-crf", str(int(crf))])
@@ -63,8 +55,7 @@ def write_video(path, frames_u8, fps, video="mp4", codec="libx264rgb", crf=18) -
         fmt = "matroska"
     else:
         raise MagretinaError(f"video codec {codec!r}: allowed libx264rgb, ffv1")
-    tmp = _tmp_beside(path, ".mkv" if fmt == "matroska" else ".mp4")
-    try:
+    with atomic_path(path, ".mkv" if fmt == "matroska" else ".mp4") as tmp:
         w = iio2.get_writer(tmp, format="FFMPEG", mode="I", fps=float(fps), quality=None,
                             macro_block_size=1, ffmpeg_log_level="error",
                             input_params=None, ffmpeg_params=["-threads", "1", "-f", fmt], **kw)
@@ -80,17 +71,12 @@ def write_video(path, frames_u8, fps, video="mp4", codec="libx264rgb", crf=18) -
                 w.append_data(fr)
         finally:
             w.close()
-        os.replace(tmp, path)
-    except BaseException:
-        if os.path.exists(tmp):
-            os.remove(tmp)
-        raise
     return path
 
 
 def read_video(path) -> np.ndarray:
     """Decode a video into (N, H, W, 3) uint8 RGB (for checks)."""
-    import imageio.v2 as iio2
+    import imageio.v2 as iio2  # deferred: the ffmpeg plugin loads only when a video is read
 
     r = iio2.get_reader(path, format="FFMPEG", pixelformat="rgb24")
     try:
@@ -101,8 +87,6 @@ def read_video(path) -> np.ndarray:
 
 def preview_bytes(frames_u8, fps, kind="gif", max_width=256) -> bytes:
     """Animated GIF or APNG bytes of the frames, downscaled by an integer factor."""
-    from PIL import Image
-
     ims = []
     for fr in frames_u8:
         fr = np.asarray(fr, np.uint8)
@@ -123,8 +107,6 @@ def preview_bytes(frames_u8, fps, kind="gif", max_width=256) -> bytes:
 
 def csv_header(names) -> list[str]:
     """snake_case, starting with a letter, unique (common practice of experiment software)."""
-    from .expand import snake
-
     out = []
     for n in names:
         s = snake(n)
@@ -263,9 +245,7 @@ def metrics_csv(plan, entries) -> bytes:
 
 def metrics_dataset(plan, entries):
     """xarray Dataset: every metric over (sweep dimensions..., frame); NaN-padded frames."""
-    import xarray as xr
-
-    from .outputs import CAUTION
+    import xarray as xr  # deferred: xarray (optional [scale] extra) is needed only for NetCDF
 
     names = metric_names(entries)
     dims = [d[0] for d in plan.dims] + ["frame"]

@@ -33,6 +33,12 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from ..composite import pattern_grey
+from ..display import SRGB8, displayed_stats
+from ..dither import frame_seed, quantise
+from ..pipeline import composite_inputs, render_pattern, signal_map
+from ..predict import study_metrics
+
 
 @dataclass
 class MetricContext:
@@ -71,13 +77,11 @@ class MetricContext:
         NaN where no eye sees.  ``view`` is a view name of the study or a view object."""
         key = ("view", view if isinstance(view, str) else id(view))
         if key not in self._cache:
-            from ..pipeline import _signal_map, render_pattern
-
             v = self.views[view] if isinstance(view, str) else view
             if self.product == "singlet" and self.inputs is not None:
                 # The frame's own kernel inputs are what render_pattern would prepare
                 # again (same field, pose, layout, response, singlet): same values.
-                self._cache[key] = _signal_map(self.inputs, v, self.layout, self.inputs.lut)
+                self._cache[key] = signal_map(self.inputs, v, self.layout, self.inputs.lut)
             else:
                 f = render_pattern(self.field, self.pose, self.layout, self.response, v)
                 self._cache[key] = 1.0 - f if self.product == "triplet" else f
@@ -87,8 +91,6 @@ class MetricContext:
         """The frame's continuous linear image over a study view, (H, W, 3) float32 (the
         one the frame files are quantised from)."""
         if view not in self.images:
-            from ..pipeline import composite_inputs
-
             self.images[view] = composite_inputs(self.inputs, self.mean_signal, self.layout,
                                                  self.views[view], self.scene, self.gain,
                                                  self.outside)
@@ -97,8 +99,6 @@ class MetricContext:
     def dither_seed(self, view, pattern=False):
         """The dither seed of this frame's file of ``view`` (the pattern stimulus of the
         display metrics gets a seed of its own)."""
-        from ..dither import frame_seed
-
         vi = list(self.views).index(view) + (1 << 20 if pattern else 0)
         return frame_seed(self.seed, self.frame, self.temporal, view=vi)
 
@@ -149,10 +149,6 @@ def display(ctx: MetricContext) -> dict:
     uniform field of ``display.pattern_grey``, over the pixels an eye sees, quantised the
     same way (with its own seed): how much of the modulation survives quantisation.
     """
-    from ..composite import pattern_grey
-    from ..display import SRGB8, displayed_stats
-    from ..dither import quantise
-
     disp = ctx.display or SRGB8
     out = {}
     for i, name in enumerate(ctx.views):
@@ -183,11 +179,12 @@ def _safe(name, i):
     return s if s and s[0].isalpha() else f"eye{i}"
 
 
-#: name -> provider function, or "module:function" imported on first use.
+#: name -> provider function (or "module:function" of a provider outside the package,
+#: imported on first use).  Adding a provider is one function and one line here.
 PROVIDERS = {
     "basic": basic,
     "display": display,
-    "prediction": "renderer.predict:study_metrics",
+    "prediction": study_metrics,
 }
 
 

@@ -1,6 +1,7 @@
 """The ``[orientation]`` table of a study file: conditions, hypotheses, preferred heading.
 
-Glue between a study's resolved configuration and :mod:`renderer.orientation`:
+Glue between a study's resolved configuration and :mod:`renderer.orientation` (the
+table is checked by :mod:`.orientation_config`, which study validation calls):
 
 * ``[orientation]``: ``preferred_heading_deg``, ``headings`` (grid size), ``kappa``
   (behavioural von Mises concentration, 0 = none), ``non_orienting`` (share),
@@ -27,125 +28,42 @@ model, never measurements.
 
 from __future__ import annotations
 
+import csv
+import io
 import json
 import math
 import os
+import tempfile
+
 import numpy as np
 
 from ..errors import MagretinaError
-from .schema import REQUIRED, Key, check_table
+from ..field import FieldVector
+from ..mosaic import build_mosaic
+from ..orientation.model import (CAUTION, Behaviour, Condition, Hypothesis, Predictor,
+                                 sample_headings)
+from ..orientation.plots import plot_conditions, plot_power
+from ..orientation.power import animals_needed, animals_to_discriminate
+from ..orientation.statistics import describe
+from ..predict import options_to_models
+from . import outputs
+from .build import build_layout, build_response
+from .expand import plan
+from .orientation_config import CONDITION, HYPOTHESIS, ORIENTATION, POWER, check_orientation
+from .sequences import TIMELINE_ACTIONS, CoilState
 
-ORIENTATION = {
-    "preferred_heading_deg": Key(float, 0.0, lo=-360.0, hi=360.0, unit="degrees"),
-    "headings": Key(int, 360, lo=36, hi=7200, unit="grid headings (even)"),
-    "kappa": Key(float, 0.0, lo=0.0, hi=1e6),
-    "non_orienting": Key(float, 0.0, lo=0.0, hi=1.0, hi_open=True, unit="share"),
-    "monte_carlo": Key(int, 0, lo=0, hi=1_000_000, unit="simulated animals per condition"),
-    "seed": Key(int, 0, lo=0),
-    "gain": Key(float, None, lo=0.0, hi=1e6),
-}
-CONDITION = {"name": Key(str, REQUIRED), "steps": Key(list, [])}
-HYPOTHESIS = {"name": Key(str, REQUIRED), "response": Key(str, "default"),
-              "alignment": Key((str, dict), None), "description": Key(str, "")}
-POWER = {"test": Key(str, "v", choices=("v", "rayleigh")),
-         "alpha": Key(float, 0.05, lo=0.0, hi=1.0, lo_open=True, hi_open=True),
-         "target": Key(float, 0.8, lo=0.0, hi=1.0, lo_open=True, hi_open=True),
-         "n_max": Key(int, 100, lo=4, hi=10000, unit="animals"),
-         "n_sim": Key(int, 200, lo=10, hi=100000, unit="simulated experiments")}
+__all__ = ["check_orientation", "conditions_of", "hypotheses_of", "predict_config",
+           "power_table", "predict_plan", "flat_rows", "csv_bytes", "json_bytes",
+           "write_outputs", "study_outputs", "ORIENTATION", "CONDITION", "HYPOTHESIS", "POWER",
+           "OUTPUT_JSON", "OUTPUT_CSV"]
 
 OUTPUT_JSON = "orientation.json"
 OUTPUT_CSV = "orientation.csv"
 
 
-def check_orientation(tbl, response_names, problems) -> dict:
-    """Validate ``[orientation]``; returns it resolved (problems appended with key paths)."""
-    from ..predict import OPTION_KEYS
-    from .sequences import STEP_KEYS, TIMELINE_ACTIONS
-
-    if not isinstance(tbl, dict):
-        problems.append("orientation: must be a table")
-        return {}
-    out = check_table("orientation", tbl, ORIENTATION, problems,
-                      extra_ok=("receptors", "condition", "hypothesis", "power"))
-    h = out.get("headings")
-    if isinstance(h, int) and h % 2:
-        problems.append(f"orientation.headings = {h}: must be even")
-    rec = out.get("receptors", {})
-    if not isinstance(rec, dict):
-        problems.append("orientation.receptors: must be a table")
-        rec = {}
-    for k in rec:
-        if k not in OPTION_KEYS:
-            problems.append(f"orientation.receptors.{k}: unknown key; allowed: "
-                            f"{', '.join(OPTION_KEYS)}")
-    out["receptors"] = dict(rec)
-    conds = out.get("condition", [])
-    if not isinstance(conds, list) or not conds:
-        problems.append("orientation.condition: give at least one [[orientation.condition]] "
-                        "(name, steps)")
-        conds = []
-    rc = []
-    names = set()
-    for i, c in enumerate(conds):
-        path = f"orientation.condition[{i}]"
-        cc = check_table(path, c, CONDITION, problems)
-        if cc.get("name") in names:
-            problems.append(f"{path}.name = {cc['name']!r}: used twice")
-        names.add(cc.get("name"))
-        steps = []
-        for j, s in enumerate(cc.get("steps", []) or []):
-            sp = f"{path}.steps[{j}]"
-            if not isinstance(s, dict) or s.get("action") not in TIMELINE_ACTIONS:
-                problems.append(f"{sp}.action = {s.get('action') if isinstance(s, dict) else s!r}: "
-                                f"allowed {', '.join(map(repr, TIMELINE_ACTIONS))}")
-                continue
-            ss = check_table(sp, s, {"action": Key(str, REQUIRED), **STEP_KEYS[s["action"]]},
-                             problems)
-            sel = ss.get("select")
-            if sel is not None and sel != "default" and sel not in response_names:
-                problems.append(f"{sp}.select = {sel!r}: allowed 'default'"
-                                + "".join(f", {n!r}" for n in sorted(response_names)))
-            steps.append(ss)
-        cc["steps"] = steps
-        rc.append(cc)
-    out["condition"] = rc
-    hyps = out.get("hypothesis", [])
-    if not isinstance(hyps, list) or not hyps:
-        problems.append("orientation.hypothesis: give at least one [[orientation.hypothesis]] "
-                        "(name, response)")
-        hyps = []
-    rh = []
-    hn = set()
-    for i, hh in enumerate(hyps):
-        path = f"orientation.hypothesis[{i}]"
-        x = check_table(path, hh, HYPOTHESIS, problems)
-        if x.get("name") in hn:
-            problems.append(f"{path}.name = {x['name']!r}: used twice")
-        hn.add(x.get("name"))
-        r = x.get("response")
-        if r is not None and r != "default" and r not in response_names:
-            problems.append(f"{path}.response = {r!r}: allowed 'default'"
-                            + "".join(f", {n!r}" for n in sorted(response_names))
-                            + " (define alternatives as [responses.NAME])")
-        if x.get("alignment") is not None:
-            from ..eye.alignment import parse_alignment
-
-            try:
-                parse_alignment(x["alignment"])
-            except MagretinaError as exc:
-                problems.append(f"{path}.alignment: {exc}")
-        rh.append(x)
-    out["hypothesis"] = rh
-    out["power"] = check_table("orientation.power", out.get("power", {}), POWER, problems)
-    return out
-
-
 # ----------------------------------------------------------------------------- building
 def conditions_of(ocfg, ambient_ned_T):
     """:class:`renderer.orientation.model.Condition` list from the resolved table."""
-    from ..orientation.model import Condition
-    from .sequences import TIMELINE_ACTIONS, CoilState
-
     out = []
     for c in ocfg["condition"]:
         st = CoilState()
@@ -158,9 +76,6 @@ def conditions_of(ocfg, ambient_ned_T):
 
 def hypotheses_of(cfg, base_dir):
     """:class:`renderer.orientation.model.Hypothesis` list (layouts with their alignment)."""
-    from ..orientation.model import Hypothesis
-    from .build import build_layout, build_response
-
     layout = build_layout(cfg["layout"], base_dir)
     responses = {"default": build_response(cfg["response"], base_dir)}
     products = {"default": cfg["response"].get("product", "singlet")}
@@ -188,11 +103,6 @@ def predict_config(cfg, base_dir, ambient_ned_T, monte_carlo=None, power=True, s
         Prediction; results = JSON-ready dict (conditions, hypotheses, rows,
         power, caution).
     """
-    from ..mosaic import build_mosaic
-    from ..orientation.model import CAUTION, Behaviour, Predictor
-    from ..orientation.statistics import describe
-    from ..predict import options_to_models
-
     o = cfg["orientation"]
     gain = o.get("gain")
     gain = float(cfg["render"]["gain"] if gain is None else gain)
@@ -201,8 +111,6 @@ def predict_config(cfg, base_dir, ambient_ned_T, monte_carlo=None, power=True, s
                           cfg["pose"]["pitch_deg"], cfg["pose"]["roll_deg"])
     conds = conditions_of(o, ambient_ned_T)
     hyps = hypotheses_of(cfg, base_dir)
-    from ..field import FieldVector
-
     ambient = FieldVector(np.asarray(ambient_ned_T, float), model="ambient")
     mc = o["monte_carlo"] if monte_carlo is None else int(monte_carlo)
     seed = o["seed"] if seed is None else int(seed)
@@ -246,9 +154,6 @@ def predict_config(cfg, base_dir, ambient_ned_T, monte_carlo=None, power=True, s
 def power_table(preds, pcfg, seed=0) -> list:
     """Animals needed per hypothesis and condition (test of ``[orientation.power]``),
     and to tell the hypotheses apart (model comparison at fixed behaviour)."""
-    from ..orientation.model import sample_headings
-    from ..orientation.power import animals_needed, animals_to_discriminate
-
     out = []
     for h, byc in preds.items():
         for c, p in byc.items():
@@ -283,8 +188,6 @@ def predict_plan(study, monte_carlo=None, power=True, plan_=None):
     (per_shot, document) : per_shot = list of (shot, predictions); document =
         JSON-ready dict with one entry per shot (``shot_id``, ``params``, results).
     """
-    from .expand import plan
-
     if not study.resolved.get("orientation"):
         raise MagretinaError(f"{study.path}: no [orientation] table (conditions, hypotheses, "
                              f"preferred heading); see the example study")
@@ -310,9 +213,6 @@ def flat_rows(document) -> list:
 
 
 def csv_bytes(document) -> bytes:
-    import csv
-    import io
-
     rows = flat_rows(document)
     cols = []
     for r in rows:
@@ -355,9 +255,6 @@ def write_outputs(out_dir, per_shot, document) -> list:
     """Write orientation.json, orientation.csv and the plots (one compass figure and one
     power figure per shot) into ``out_dir``; unchanged bytes are not rewritten.
     Returns the paths."""
-    from ..orientation.plots import plot_conditions, plot_power
-    from . import outputs
-
     os.makedirs(out_dir, exist_ok=True)
     paths = [os.path.join(out_dir, OUTPUT_JSON), os.path.join(out_dir, OUTPUT_CSV)]
     outputs.write_if_changed(paths[0], json_bytes(document))
@@ -387,10 +284,6 @@ def _power_curves(shot_doc) -> dict:
 
 def _plot_if_changed(out_dir, name, draw):
     """Draw into a temporary file, then keep the old file if the bytes are the same."""
-    import tempfile
-
-    from . import outputs
-
     with tempfile.TemporaryDirectory(prefix="magretina-orient-") as tmp:
         q = os.path.join(tmp, name)
         draw(q)

@@ -27,11 +27,17 @@ from __future__ import annotations
 import hashlib
 import json
 import os
+import shutil
 import subprocess
 import sys
+from importlib import metadata
+
+import numpy as np
 
 from ..errors import MagretinaError
-from ..io import atomic_write_json, atomic_write_text
+from ..io import atomic_write_bytes, atomic_write_json, atomic_write_text
+from ..version import __version__
+from .schema import resolve_path
 
 STUDY_JSON = "study.json"
 MANIFEST = "manifest.jsonl"
@@ -181,8 +187,6 @@ def compact_manifest(out_dir, entries: dict):
 
 
 def write_if_changed(path, data: bytes) -> bool:
-    from ..io import atomic_write_bytes
-
     try:
         with open(path, "rb") as fh:
             if fh.read() == data:
@@ -208,8 +212,6 @@ def work_dir(out_dir) -> str:
 
 def remove_work_dir(out_dir):
     """Delete the work area and everything in it (stale files of a killed run included)."""
-    import shutil
-
     shutil.rmtree(work_dir(out_dir), ignore_errors=True)
 
 
@@ -296,8 +298,6 @@ def folder_verdict(out_dir, config_sha, force) -> str:
 
 
 def package_versions() -> dict:
-    from importlib import metadata
-
     out = {"python": sys.version.split()[0]}
     for name in ("magretina", "numpy", "scipy", "numba", "ppigrf", "imageio", "imageio-ffmpeg",
                  "pillow", "xarray", "h5netcdf", "h5py", "dask", "distributed"):
@@ -305,9 +305,7 @@ def package_versions() -> dict:
             out[name] = metadata.version(name)
         except metadata.PackageNotFoundError:
             pass
-    import renderer
-
-    out.setdefault("magretina", renderer.__version__)
+    out.setdefault("magretina", __version__)
     return out
 
 
@@ -334,8 +332,6 @@ def git_commit() -> str | None:
 
 def input_files(study) -> dict:
     """SHA-256 of every file the study refers to (layout, response tables, scene, route)."""
-    from .config import resolve_path
-
     r = study.resolved
     paths = []
     if r["layout"].get("file"):
@@ -379,8 +375,6 @@ def study_sidecar(plan, encodings) -> dict:
 
 
 def write_sidecar(out_dir, sidecar):
-    import numpy as np
-
     def conv(o):
         if isinstance(o, np.ndarray):
             return o.tolist()

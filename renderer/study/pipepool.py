@@ -22,6 +22,8 @@ import subprocess
 import sys
 import threading
 
+from . import worker
+
 _HEAD = struct.Struct("<Q")
 
 
@@ -148,15 +150,11 @@ class PipePool:
 
 
 def _serve(numba_threads):
-    from . import worker
-
     out = os.fdopen(os.dup(1), "wb")
     os.dup2(2, 1)
     inp = sys.stdin.buffer
     worker.init_worker(numba_threads or None)
     worker.watch_parent()
-    from .executors import _FUNCS
-
     while True:
         try:
             msg = _read_msg(inp)
@@ -166,7 +164,7 @@ def _serve(numba_threads):
             return
         kind, task = msg
         try:
-            res = (True, _FUNCS[kind](task))
+            res = (True, worker.UNITS[kind](task))
         except Exception as exc:
             res = (False, exc)
         try:

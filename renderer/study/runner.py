@@ -20,11 +20,19 @@ import sys
 import time
 from dataclasses import dataclass, field
 
+from tqdm import tqdm
+
+from .. import budget
+from ..budget import check_jobs
 from ..errors import ConfigError, MagretinaError
+from ..inputs import image_size
 from . import exports, outputs
-from .build import build_resources
-from .config import load_study
+from .build import build_resources, build_view
+from .executors import make_executor, start_local
+from .expand import load_study, snake
 from .expand import plan as make_plan
+from .orientation import study_outputs
+from .schema import resolve_path
 
 PREVIEW_ENCODING = {"gif": "gif", "apng": "apng"}
 
@@ -89,8 +97,6 @@ def dry_run(plan, out_dir, stream=sys.stdout, first=5, est=None) -> dict:
     n_files, raw_bytes = 0, 0
     for s in plan.shots:
         o = s.config["output"]
-        from .build import build_view
-
         for vcfg in s.config["views"].values():
             H, W = build_view(vcfg).shape
             per = (3 * H * W if o["png8"] else 0) + (6 * H * W if o["png16"] else 0)
@@ -126,10 +132,6 @@ def estimate(plan, jobs=1):
     scene, the per-eye metric grids of each distinct geometry), so those count once
     per process; frames count for the frame limit and the time estimate.
     """
-    from .. import budget
-    from .build import build_view
-    from .config import resolve_path
-
     est = budget.Estimate(f"study {plan.study.resolved['study']['name']!r}",
                           processes=max(1, int(jobs)))
     for key, cfg in plan.resource_configs.items():
@@ -141,8 +143,6 @@ def estimate(plan, jobs=1):
                 widths.append(W)
         sc = cfg["scene"]
         if sc["kind"] == "file":
-            from ..inputs import image_size
-
             sw, sh = image_size(resolve_path(plan.study.base_dir, sc["path"]), "scene.path")
         else:
             sw = sc.get("width") or max(widths + [256])
@@ -190,8 +190,6 @@ def run_study(study_path, out_dir=None, jobs=1, executor="local", scheduler=None
     max_memory_gb : memory limit (GB) instead of the default, see :mod:`renderer.budget`
     force_jobs : allow more workers than CPUs
     """
-    from ..budget import check_jobs
-
     stream = stream or sys.stdout
     t0 = time.perf_counter()
     check_jobs(jobs, force_jobs)
@@ -200,8 +198,6 @@ def run_study(study_path, out_dir=None, jobs=1, executor="local", scheduler=None
     study = load_study(study_path)
     started = None
     if not dry and executor == "local" and not scheduler and jobs > 1:
-        from .executors import start_local
-
         # Workers spawn and import the library while this process plans; they get the
         # resources with their first unit.
         started = start_local(jobs)
@@ -225,12 +221,8 @@ def _check_out_dir(out_dir):
 
 def _run(study, out_dir, jobs, executor, scheduler, dry, force, progress, stream, chunk_frames,
          t0, started, max_memory_gb=None):
-    from tqdm import tqdm
-
     plan = make_plan(study)
     if out_dir is None:
-        from .expand import snake
-
         out_dir = os.path.join("outputs", snake(study.resolved["study"]["name"]))
     est = estimate(plan, jobs).check(max_memory_gb)
     # A dry run makes every check the run makes before its first frame (resources,
@@ -317,8 +309,6 @@ def _run(study, out_dir, jobs, executor, scheduler, dry, force, progress, stream
     ex = None
     try:
         if shots_todo:
-            from .executors import make_executor
-
             ex = make_executor(executor, resources, jobs, scheduler, started=started,
                                work_dir=outputs.work_dir(out_dir))
             outstanding = 0
@@ -358,8 +348,6 @@ def _run(study, out_dir, jobs, executor, scheduler, dry, force, progress, stream
 
 
 def _sidecar_field(path, key):
-    import json
-
     try:
         with open(path, encoding="utf-8") as fh:
             return json.load(fh).get(key)
@@ -376,8 +364,6 @@ def _frame_task(shot, i, write, metrics):
 
 
 def _display_task(cfg, base_dir):
-    from .config import resolve_path
-
     d = dict(cfg["display"])
     if d.get("table"):
         d["table"] = resolve_path(base_dir, d["table"])
@@ -446,6 +432,4 @@ def _write_tables(plan, entries, out_dir):
         outputs.write_if_changed(os.path.join(out_dir, "metrics.nc"),
                                  exports.netcdf_bytes(exports.metrics_dataset(plan, entries)))
     if plan.study.resolved.get("orientation"):
-        from .orientation import study_outputs
-
         study_outputs(plan, out_dir)

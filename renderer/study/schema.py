@@ -7,7 +7,10 @@ value out of range, value not among the choices) to a shared list, so a whole
 study file is reported at once.  Keys whose allowed set is only known at run time
 (the fields of a registered view or eye class) are checked by
 :func:`check_passthrough` against the class's dataclass fields or constructor
-signature.  This module knows nothing about what the keys mean.
+signature.  Two helpers every stage shares live here too: :func:`resolve_path`
+(paths in a study file are relative to the file) and :func:`canonical_json` (the
+text that configuration digests are taken of).  This module knows nothing about
+what the keys mean.
 """
 
 from __future__ import annotations
@@ -15,12 +18,24 @@ from __future__ import annotations
 import dataclasses
 import datetime as _dt
 import inspect
+import json
 import math
+import os
 from dataclasses import dataclass
 
 from ..errors import did_you_mean
 
 REQUIRED = object()
+
+
+def resolve_path(base_dir, p) -> str:
+    """``p`` if absolute, else ``p`` relative to ``base_dir`` (the study file's folder)."""
+    return p if os.path.isabs(p) else os.path.join(base_dir, p)
+
+
+def canonical_json(obj) -> str:
+    """Sorted-key, separator-free JSON of ``obj`` (non-JSON values as ``str``): digest input."""
+    return json.dumps(obj, sort_keys=True, separators=(",", ":"), default=str)
 
 _TYPE_NAMES = {bool: "true/false", int: "an integer", float: "a number", str: "a string",
                list: "an array", dict: "a table"}

@@ -39,7 +39,9 @@ from dataclasses import dataclass, field, replace
 import numpy as np
 
 from ..errors import MagretinaError
-from .schema import REQUIRED, Key, check_table
+from ..spin.rf import RFField
+from .schema import REQUIRED, Key, check_table, resolve_path
+from ..inputs import read_csv_rows
 
 #: Mean Earth radius R1 (IUGG; Moritz 2000, Geodetic Reference System 1980), m.
 EARTH_RADIUS_M = 6371008.8
@@ -148,8 +150,6 @@ def check_sequence(tbl, base_dir, problems) -> dict:
             problems.append("sequence: a route needs either csv = \"points.csv\" or both from = "
                             "{lat_deg, lon_deg} and to = {lat_deg, lon_deg}")
         if has_csv:
-            from .config import resolve_path
-
             p = resolve_path(base_dir, out["csv"])
             if not os.path.isfile(p):
                 problems.append(f"sequence.csv = {out['csv']!r}: no such file (looked for {p})")
@@ -198,7 +198,9 @@ def check_timeline(tbl, response_names, problems) -> dict:
         s = check_table(path, st, schema, problems)
         if action == "rf-on" and (s.get("amplitude_nT") is not None
                                   or s.get("frequency_MHz") is not None):
-            _check_rf(path, s, problems)
+            rf = _check_rf(path, s, problems)
+            if rf is not None:
+                s = {**s, "rf": rf}
         if action in ("response", "rf-on") and s.get("select") is not None and \
                 s["select"] != "default" and s["select"] not in response_names:
             problems.append(f"{path}.select = {s['select']!r}: allowed 'default'"
@@ -215,19 +217,18 @@ def check_timeline(tbl, response_names, problems) -> dict:
 
 
 def _check_rf(path, s, problems):
-    try:
-        from ..spin.rf import RFField
-    except ImportError:  # the spin package is optional for plain studies
-        return
+    """The RF field of an ``rf-on`` step as :meth:`RFField.describe` gives it, or None
+    (with a problem appended) when it is incomplete or out of range; ``s`` is not changed."""
     if s.get("amplitude_nT") is None or s.get("frequency_MHz") is None:
         problems.append(f"{path}: give both amplitude_nT and frequency_MHz (or neither)")
-        return
+        return None
     try:
         rf = RFField.from_trade_units(s["amplitude_nT"], s["frequency_MHz"],
                                       direction=tuple(s.get("direction") or (1.0, 0.0, 0.0)))
-        s["rf"] = rf.describe()
     except (MagretinaError, TypeError, ValueError) as exc:
         problems.append(f"{path}: {exc}")
+        return None
+    return rf.describe()
 
 
 # ---------------------------------------------------------------------------- building
@@ -353,8 +354,6 @@ ROUTE_COLUMNS = ("time_s", "lat_deg", "lon_deg", "alt_km", "heading_deg")
 def read_route_csv(path):
     """Read a route CSV; returns a dict of (n,) arrays (alt_km/heading_deg may be None)."""
     cols = {c: [] for c in ROUTE_COLUMNS}
-    from ..inputs import read_csv_rows
-
     rows = [r for r in read_csv_rows(path, "route") if r and not r[0].lstrip().startswith("#")]
     if not rows:
         raise MagretinaError(f"route {path}: empty")
@@ -395,8 +394,6 @@ def read_route_csv(path):
 
 
 def _route(cfg, ctx):
-    from .config import resolve_path
-
     p = ctx.pose
     if cfg.get("csv"):
         r = read_route_csv(resolve_path(ctx.base_dir, cfg["csv"]))

@@ -14,31 +14,42 @@ render are made here (see :mod:`.runner`).
 
 from __future__ import annotations
 
+import json
 import os
+import pickle
+import signal
 
+import imageio.v3 as iio
+import numba
 import numpy as np
+import PIL.PngImagePlugin  # noqa: F401  (the PNG codec, loaded before the first unit)
 
+from .. import pngmeta
+from ..composite import modulation_map, to_uint8_srgb
+from ..display import SRGB8, make_display, parse_target
+from ..dither import frame_seed, quantise
 from ..errors import MagretinaError
+from ..field import FieldVector
+from ..figure import annotate
+from ..io import atomic_write_bytes, display_png_bytes, linear16_png_bytes, png_bytes
+from ..pipeline import composite_inputs, prepare, visual_field_mean
+from ..pngmeta import label_chunks
+from ..pose import Pose
+from ..provenance import CAUTION, frame_params
+from . import metrics as metrics_mod
+from .exports import preview_bytes, write_video
+from .outputs import append_manifest, sha256_bytes, sha256_file
 
 _RESOURCES: dict = {}
 
 
 def init_worker(numba_threads: int | None):
     """Process-pool initializer: set numba's thread count, leave Ctrl-C to the parent
-    (which terminates the pool), and import what every unit needs while the parent
-    is still planning."""
-    import signal
-
+    (which terminates the pool).  Everything a unit needs is imported with this
+    module, i.e. when the pool starts, while the parent is still planning."""
     signal.signal(signal.SIGINT, signal.SIG_IGN)
     _RESOURCES.clear()
     _set_threads(numba_threads)
-    import imageio.v3  # noqa: F401
-    import PIL.PngImagePlugin  # noqa: F401
-
-    from .. import composite, io, pipeline  # noqa: F401
-    from . import build, metrics  # noqa: F401
-
-
 _PARENT = {"pid": None}
 
 
@@ -57,8 +68,6 @@ def _resources(task, resources):
         return resources
     key = task["res_key"]
     if key not in _RESOURCES:
-        import pickle
-
         with open(task["resources_path"], "rb") as fh:
             _RESOURCES.update(pickle.load(fh))
     return _RESOURCES[key]
@@ -66,15 +75,11 @@ def _resources(task, resources):
 
 def _set_threads(n):
     if n:
-        import numba
-
         numba.set_num_threads(max(1, min(int(n), numba.config.NUMBA_NUM_THREADS)))
 
 
 def build_display(cfg):
     """The display model of a task's resolved ``[display]`` table (table path absolute)."""
-    from ..display import SRGB8, make_display, parse_target
-
     if not cfg:
         return SRGB8, 0.5
     d = make_display(cfg["kind"], cfg["bits"], cfg.get("black_cd_m2"), cfg.get("white_cd_m2"),
@@ -86,8 +91,6 @@ _DISPLAYS: dict = {}
 
 
 def _display(cfg):
-    import json
-
     key = json.dumps(cfg, sort_keys=True, default=str)
     if key not in _DISPLAYS:
         _DISPLAYS[key] = build_display(cfg)
@@ -96,9 +99,6 @@ def _display(cfg):
 
 def frame_labels(task, fr, vname, view, enc, field, pose, layout, response, product, display):
     """Text chunks of one study frame file (no Creation Time: reruns give the same bytes)."""
-    from ..pngmeta import label_chunks
-    from ..provenance import CAUTION, frame_params
-
     dcfg = task.get("display") or {}
     method = dcfg.get("dither", "none")
     params = frame_params(field, pose, layout, response, view, task["gain"], product, display,
@@ -124,12 +124,6 @@ def frame_labels(task, fr, vname, view, enc, field, pose, layout, response, prod
 
 def figure_bytes(ctx, vname, img, labels, fr) -> bytes:
     """PNG bytes of the annotated figure of one frame and view (8-bit sRGB)."""
-    from .. import pngmeta
-    from ..composite import modulation_map, to_uint8_srgb
-    from ..figure import annotate
-    from ..io import png_bytes
-    from ..provenance import CAUTION
-
     m = modulation_map(ctx.signal_map(vname), ctx.mean_signal, ctx.gain)
     rng = (float(np.nanmin(m)), float(np.nanmax(m))) if np.isfinite(m).any() else (0.0, 0.0)
     view = ctx.views[vname]
@@ -145,14 +139,6 @@ def render_chunk(task: dict, resources=None) -> dict:
 
     Returns ``{"shot", "records": [...], "metrics": {frame: {...}}, "frames": n}``.
     """
-    from ..dither import frame_seed, quantise
-    from ..field import FieldVector
-    from ..io import atomic_write_bytes, display_png_bytes, linear16_png_bytes
-    from ..pipeline import composite_inputs, prepare, visual_field_mean
-    from ..pose import Pose
-    from . import metrics as metrics_mod
-    from .outputs import append_manifest, sha256_bytes
-
     res = _resources(task, resources)
     _set_threads(task.get("numba_threads"))
     out_dir = task["out_dir"]
@@ -224,12 +210,6 @@ def render_chunk(task: dict, resources=None) -> dict:
 
 def finish_shot(task: dict, resources=None) -> dict:
     """Write the previews and videos of one shot from its 8-bit frames on disk."""
-    import imageio.v3 as iio
-
-    from ..io import atomic_write_bytes
-    from .exports import preview_bytes, write_video
-    from .outputs import sha256_bytes, sha256_file
-
     out_dir = task["out_dir"]
     records = []
     for item in task["items"]:
@@ -245,3 +225,7 @@ def finish_shot(task: dict, resources=None) -> dict:
         records.append({"path": item["path"], "sha256": sha, "bytes": size, "frame": None,
                         "view": item["view"], "encoding": item["encoding"]})
     return {"shot": task["shot"], "records": records, "finish": True}
+
+
+#: The work units by name, as the executors and the pipe pool's workers call them.
+UNITS = {"render": render_chunk, "finish": finish_shot}

@@ -20,7 +20,7 @@ import pytest
 
 from renderer.cli import main
 from renderer.errors import ConfigError, MagretinaError
-from renderer.study.config import load_study
+from renderer.study import load_study
 
 EXAMPLE = Path(__file__).resolve().parents[2] / "renderer" / "study" / "examples" / \
     "orientation_study.toml"

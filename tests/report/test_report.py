@@ -10,7 +10,8 @@ import pytest
 
 from renderer.cli import main
 from renderer.errors import MagretinaError
-from renderer.report import build_report, browser_check, find_browser
+from renderer.browser import browser_check, find_browser
+from renderer.report import build_report
 
 STUDY = """
 [study]

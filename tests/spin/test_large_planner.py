@@ -9,9 +9,9 @@ import numpy as np
 import pytest
 
 from renderer.errors import MagretinaError
-from renderer.response.spin_table import compute_spin_table
 from renderer.spin import load_pair, singlet_yield
-from renderer.spin.planner import compute_table, estimate, plan, run_directions, run_key
+from renderer.response.spin_table import compute_spin_table, compute_table
+from renderer.spin.planner import estimate, plan, run_directions, run_key
 
 from conftest import random_pair
 

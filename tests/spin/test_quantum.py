@@ -18,8 +18,9 @@ import qutip
 from renderer.errors import MagretinaError
 from renderer.spin import Nucleus, Radical, RadicalPair, direction_information, singlet_yield
 from renderer.spin.hamiltonian import GAMMA_E, RAD_S_PER_MT
-from renderer.spin.quantum import (compute_information_table, information_on_directions,
-                                   sld_fisher, tangent_frame, time_averaged_state)
+from renderer.response.information_table import compute_information_table
+from renderer.spin.quantum import (information_on_directions, sld_fisher, tangent_frame,
+                                   time_averaged_state)
 from conftest import random_fields, random_pair
 
 

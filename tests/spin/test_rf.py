@@ -181,7 +181,7 @@ def test_rf_response_table_plugs_into_response_interface(tmp_path):
     code) to round-off; a 1 µT Larmor-frequency field perpendicular to B₀ lowers the mean yield
     of this N5 + bare-electron pair."""
     from renderer.response.spin_table import compute_spin_table
-    from renderer.spin.planner import compute_table
+    from renderer.response.spin_table import compute_table
 
     pair = _n5_bare()
     f = larmor_frequency_Hz(50e-6)
