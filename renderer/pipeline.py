@@ -337,7 +337,7 @@ def _supersampled_factor(inputs, mean, layout, view, n, gain, outside):
     its centre's.  Returns (factor (H, W), any sub-pixel seen (H, W) bool)."""
     H, W = view.shape
     fine = view.scaled(n)
-    sig = _signal_map(inputs, fine, layout, inputs.lut)
+    sig = signal_map(inputs, fine, layout, inputs.lut)
     seen = ~np.isnan(sig)
     k = np.where(seen, 1.0 + gain * (np.where(seen, sig, mean) / mean - 1.0), outside)
     if fine.equirect:

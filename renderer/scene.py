@@ -16,8 +16,9 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from .errors import MagretinaError
-from .io import read_image_linear
 from .inputs import image_size
+from .io import read_image_linear
+from .kernels import build_pyramid
 
 
 @dataclass(frozen=True)
@@ -64,8 +65,6 @@ class Scene:
         cannot drift apart (copy the image to edit it, and make a new Scene)."""
         pyr = self.__dict__.get("_pyramid")
         if pyr is None or tuple(pyr.shape) != tuple(self.image.shape):
-            from .kernels import build_pyramid
-
             self.image.setflags(write=False)
             pyr = build_pyramid(self.image)
             object.__setattr__(self, "_pyramid", pyr)

@@ -48,6 +48,7 @@ def _check_budget(what, method, per_process_bytes, processes, args):
     """Refuse (with the figure and the limit) before a spin run allocates more than the
     shared limit of :mod:`renderer.budget`: ``per_process_bytes`` for each of
     ``processes`` workers."""
+    # deferred: library modules load when the command runs, so start-up stays light
     from .. import budget
 
     est = budget.Estimate(what, processes=processes)
@@ -58,6 +59,7 @@ def _check_budget(what, method, per_process_bytes, processes, args):
 def _memory_limit(args, processes):
     """Bytes one solver call may use: the spin ceiling and this command's share of the
     shared limit (so 'auto' picks a method that fits both)."""
+    # deferred: library modules load when the command runs, so start-up stays light
     from .. import budget
     from ..spin.system import memory_limit_bytes
 
@@ -68,6 +70,7 @@ def _memory_limit(args, processes):
 def _plan_within(args, processes, *a, **kw):
     """``renderer.spin.planner.plan`` within this command's memory share; a refusal says
     how to raise the limit."""
+    # deferred: library modules load when the command runs, so start-up stays light
     from .. import budget
     from ..spin.planner import plan
 

@@ -19,6 +19,8 @@ from __future__ import annotations
 
 import numpy as np
 
+from ..errors import MagretinaError
+
 
 #: Filters a view can name (the first is the default).
 FILTERS = ("mipmap", "trilinear", "bilinear")
@@ -29,8 +31,6 @@ SUPERSAMPLE_MAX = 16
 
 def check_sampling(view):
     """Validate a view's ``filter`` and ``supersample`` fields (raise MagretinaError)."""
-    from ..errors import MagretinaError
-
     name = type(view).__name__
     if view.filter not in FILTERS:
         raise MagretinaError(f"{name} filter = {view.filter!r}: allowed "
