@@ -36,7 +36,7 @@ def main():
     a = ap.parse_args()
 
     from renderer.orientation import model as M
-    from renderer.study.config import load_study
+    from renderer.study import load_study
     from renderer.study.expand import plan
     from renderer.study.orientation import predict_plan
 

@@ -102,7 +102,7 @@ def test_new_study_header_names_the_written_file(tmp_path, capsys, monkeypatch):
     text = (tmp_path / "mine.toml").read_text("utf-8")
     head = "\n".join(ln for ln in text.splitlines() if ln.startswith("#     magretina"))
     assert "magretina run mine.toml" in head and "example_study.toml" not in head
-    from renderer.study.config import load_study
+    from renderer.study import load_study
     from renderer.study.expand import snake
 
     folder = os.path.join("outputs", snake(load_study("mine.toml").resolved["study"]["name"]))

@@ -143,7 +143,7 @@ def test_misspelt_subcommand_suggests(capsys):
 def test_misspelt_study_key_suggests(tmp_path):
     """An unknown study key names the closest allowed key."""
     from renderer.errors import ConfigError
-    from renderer.study.config import load_study
+    from renderer.study import load_study
 
     text = (tmp_path / "s.toml")
     from renderer.commands.new_study import example_text

@@ -13,7 +13,7 @@ import pytest
 from renderer.errors import ConfigError
 from renderer.study import config as cfgmod
 from renderer.study import expand
-from renderer.study.config import load_study
+from renderer.study import load_study
 
 BASE = """
 [study]
