@@ -484,25 +484,64 @@ def make_setup(field, layout, response, mosaic, counts, pitch_deg=0.0, roll_deg=
 # numba kernel (axial eyes)
 # ---------------------------------------------------------------------------
 
-@njit(cache=True, inline="always")
-def _hermite(coef, c):
-    """Cubic Hermite interpolant on linspace(-1, 1, L) at c: (f, df/dc)."""
-    n1 = coef.shape[0]
+# Receptors per chunk of the kernel's vectorised loops: the chunk's scratch rows (index,
+# fraction, derivative factor, terms) stay in L1.
+_CHUNK = 512
+
+
+@njit(cache=True, error_model="numpy")
+def _hermite_index(axes, j0, n, bx, by, bz, dx, dy, dz, n1, jv, tv, dv):
+    """Vectorised part of the cubic Hermite lookup on linspace(−1, 1, n1 + 1) at
+    c = a·b for receptors j0 .. j0+n−1: interval jv, fraction tv, and the derivative
+    factor dv = a·db (no table reads, so LLVM vectorises it; the same operations as
+    :func:`hermite_numpy`)."""
     inv_h = 0.5 * n1
-    x = (c + 1.0) * inv_h
-    x = min(max(x, 0.0), float(n1))
-    j = min(int(x), n1 - 1)
-    t = x - j
-    a0 = coef[j, 0]
-    a1 = coef[j, 1]
-    a2 = coef[j, 2]
-    a3 = coef[j, 3]
-    return ((a3 * t + a2) * t + a1) * t + a0, ((3.0 * a3 * t + 2.0 * a2) * t + a1) * inv_h
+    for i in range(n):
+        ax = axes[j0 + i, 0]
+        ay = axes[j0 + i, 1]
+        az = axes[j0 + i, 2]
+        x = (ax * bx + ay * by + az * bz + 1.0) * inv_h
+        x = min(max(x, 0.0), float(n1))
+        j = min(int(x), n1 - 1)
+        jv[i] = j
+        tv[i] = x - j
+        dv[i] = ax * dx + ay * dy + az * dz
+
+
+@njit(cache=True, error_model="numpy")
+def _unit_terms(amp, sv, gv, inv, k2, gain, var_a, var_b, q, m, j0, n):
+    """Vectorised per-receptor terms of unpooled units j0 .. j0+n−1: mean count m and
+    Fisher term q = (dμ/dψ)² / var (0 where the variance is not positive)."""
+    for i in range(n):
+        A = amp[j0 + i]
+        s = sv[j0 + i]
+        mu = A * (1.0 + gain * (s * inv - 1.0))
+        dmu = A * gain * (gv[j0 + i] * inv - s * k2)
+        v = var_a * mu + var_b
+        m[i] = mu
+        q[i] = dmu * dmu / v if v > 0.0 else 0.0
+
+
+def _threads():
+    import numba
+
+    return numba.get_num_threads()
+
+
+def fisher_work(n_receptors, threads=None) -> np.ndarray:
+    """Scratch rows for :func:`fisher_kernel`: (T, 2, N) float64, T = numba's thread count
+    (or ``threads``).  Allocated once by the caller and reused for every call, so the
+    kernel touches no fresh pages per heading."""
+    if threads is None:
+        import numba
+
+        threads = numba.get_num_threads()
+    return np.empty((max(1, int(threads)), 2, int(n_receptors)))
 
 
 @njit(parallel=True, cache=True)
 def fisher_kernel(b_eye, db_eye, axes, eye_start, amp, pool, pool_eye, pooled, coef, eye_row,
-                  gain, var_a, var_b, out_J, out_min_mu):
+                  gain, var_a, var_b, out_J, out_min_mu, work):
     """Fisher information per heading and eye, for eyes whose receptors are all axial.
 
     b_eye, db_eye (H, E, 3); axes (N, 3) with the receptors of eye e in rows
@@ -510,64 +549,99 @@ def fisher_kernel(b_eye, db_eye, axes, eye_start, amp, pool, pool_eye, pooled, c
     (P,); ``pooled`` False means every receptor is its own unit; coef (K, L−1, 4)
     the Hermite coefficients (:func:`hermite_coefficients`) with eye e reading
     ``coef[eye_row[e]]``.  Fills out_J (H, E) in rad⁻² and out_min_mu (H,) with the
-    smallest mean count.  Two passes over the receptors per heading: the layout mean
-    ⟨s⟩ and its derivative, then the sums.
+    smallest mean count.  ``work`` (T, 2, N) float64 scratch (:func:`fisher_work`); its
+    T rows are the parallel lanes, lane t doing headings t, t + T, ...
+
+    Per heading, one pass over the receptors evaluates the table once per receptor
+    (signal s and g = ds/dψ into per-thread rows, summed for the layout mean ⟨s⟩ and
+    its derivative), a second pass forms the counts from those rows.  The work per
+    receptor is split into vectorised chunk loops (indices; terms) and short scalar
+    loops (table reads; the sums, kept in receptor order so results do not depend on
+    the chunking: bitwise equal to evaluating the table twice, as before).
     """
     H = b_eye.shape[0]
     E = b_eye.shape[1]
     N = axes.shape[0]
     P = pool_eye.shape[0]
-    for h in prange(H):
-        S = 0.0
-        dS = 0.0
-        for e in range(E):
-            cf = coef[eye_row[e]]
-            bx, by, bz = b_eye[h, e, 0], b_eye[h, e, 1], b_eye[h, e, 2]
-            dx, dy, dz = db_eye[h, e, 0], db_eye[h, e, 1], db_eye[h, e, 2]
-            for i in range(eye_start[e], eye_start[e + 1]):
-                ax = axes[i, 0]
-                ay = axes[i, 1]
-                az = axes[i, 2]
-                s, ds = _hermite(cf, ax * bx + ay * by + az * bz)
+    CH = _CHUNK
+    T = work.shape[0]
+    for lane in prange(T):
+        sv = work[lane, 0]
+        gv = work[lane, 1]
+        jv = np.empty(CH, np.int64)
+        tv = np.empty(CH)
+        dv = np.empty(CH)
+        q = np.empty(CH)
+        m = np.empty(CH)
+        for h in range(lane, H, T):
+            _fisher_heading(h, b_eye, db_eye, axes, eye_start, amp, pool, pool_eye, pooled,
+                            coef, eye_row, gain, var_a, var_b, out_J, out_min_mu, sv, gv,
+                            jv, tv, dv, q, m)
+
+
+@njit(cache=True, inline="always")
+def _fisher_heading(h, b_eye, db_eye, axes, eye_start, amp, pool, pool_eye, pooled, coef,
+                    eye_row, gain, var_a, var_b, out_J, out_min_mu, sv, gv, jv, tv, dv, q, m):
+    """One heading of :func:`fisher_kernel` with the lane's scratch rows."""
+    E = b_eye.shape[1]
+    N = axes.shape[0]
+    P = pool_eye.shape[0]
+    CH = _CHUNK
+    S = 0.0
+    dS = 0.0
+    for e in range(E):
+        cf = coef[eye_row[e]]
+        n1 = cf.shape[0]
+        inv_h = 0.5 * n1
+        bx, by, bz = b_eye[h, e, 0], b_eye[h, e, 1], b_eye[h, e, 2]
+        dx, dy, dz = db_eye[h, e, 0], db_eye[h, e, 1], db_eye[h, e, 2]
+        for c0 in range(eye_start[e], eye_start[e + 1], CH):
+            n = min(CH, eye_start[e + 1] - c0)
+            _hermite_index(axes, c0, n, bx, by, bz, dx, dy, dz, n1, jv, tv, dv)
+            for i in range(n):
+                j = jv[i]
+                t = tv[i]
+                a0 = cf[j, 0]
+                a1 = cf[j, 1]
+                a2 = cf[j, 2]
+                a3 = cf[j, 3]
+                s = ((a3 * t + a2) * t + a1) * t + a0
+                g = (((3.0 * a3 * t + 2.0 * a2) * t + a1) * inv_h) * dv[i]
+                sv[c0 + i] = s
+                gv[c0 + i] = g
                 S += s
-                dS += ds * (ax * dx + ay * dy + az * dz)
-        S /= N
-        dS /= N
-        inv = 1.0 / S
-        k2 = dS * inv * inv
-        mn = np.inf
-        mu_p = np.zeros(P if pooled else 0)
-        dmu_p = np.zeros(P if pooled else 0)
-        for e in range(E):
-            cf = coef[eye_row[e]]
-            bx, by, bz = b_eye[h, e, 0], b_eye[h, e, 1], b_eye[h, e, 2]
-            dx, dy, dz = db_eye[h, e, 0], db_eye[h, e, 1], db_eye[h, e, 2]
-            acc = 0.0
-            for i in range(eye_start[e], eye_start[e + 1]):
-                ax = axes[i, 0]
-                ay = axes[i, 1]
-                az = axes[i, 2]
-                s, ds = _hermite(cf, ax * bx + ay * by + az * bz)
-                A = amp[i]
-                mu = A * (1.0 + gain * (s * inv - 1.0))
-                dmu = A * gain * (ds * (ax * dx + ay * dy + az * dz) * inv - s * k2)
-                if pooled:
-                    mu_p[pool[i]] += mu
-                    dmu_p[pool[i]] += dmu
-                else:
-                    mn = min(mn, mu)
-                    v = var_a * mu + var_b
-                    if v > 0.0:
-                        acc += dmu * dmu / v
-            out_J[h, e] = acc
+                dS += g
+    S /= N
+    dS /= N
+    inv = 1.0 / S
+    k2 = dS * inv * inv
+    mn = np.inf
+    mu_p = np.zeros(P if pooled else 0)
+    dmu_p = np.zeros(P if pooled else 0)
+    for e in range(E):
+        acc = 0.0
         if pooled:
-            for p in range(P):
-                mu = mu_p[p]
-                mn = min(mn, mu)
-                v = var_a * mu + var_b
-                if v > 0.0:
-                    out_J[h, pool_eye[p]] += dmu_p[p] * dmu_p[p] / v
-        out_min_mu[h] = mn
+            for i in range(eye_start[e], eye_start[e + 1]):
+                A = amp[i]
+                s = sv[i]
+                mu_p[pool[i]] += A * (1.0 + gain * (s * inv - 1.0))
+                dmu_p[pool[i]] += A * gain * (gv[i] * inv - s * k2)
+        else:
+            for c0 in range(eye_start[e], eye_start[e + 1], CH):
+                n = min(CH, eye_start[e + 1] - c0)
+                _unit_terms(amp, sv, gv, inv, k2, gain, var_a, var_b, q, m, c0, n)
+                for i in range(n):
+                    acc += q[i]
+                    mn = min(mn, m[i])
+        out_J[h, e] = acc
+    if pooled:
+        for p in range(P):
+            mu = mu_p[p]
+            mn = min(mn, mu)
+            v = var_a * mu + var_b
+            if v > 0.0:
+                out_J[h, pool_eye[p]] += dmu_p[p] * dmu_p[p] / v
+    out_min_mu[h] = mn
 
 
 # ---------------------------------------------------------------------------
@@ -824,7 +898,8 @@ def fisher_information(field, layout, response, mosaic, counts, headings_deg=Non
         J = np.empty((hd.size, st.R_eye_head.shape[0]))
         mn = np.empty(hd.size)
         fisher_kernel(b_eye, db_eye, st.axes, st.eye_start, st.amp, st.pool, st.pool_eye,
-                      st.pooled, st.coef, st.eye_row, st.gain, st.var_a, st.var_b, J, mn)
+                      st.pooled, st.coef, st.eye_row, st.gain, st.var_a, st.var_b, J, mn,
+                      fisher_work(st.axes.shape[0], min(hd.size, _threads())))
     if np.min(mn) < 0:
         raise MagretinaError(f"gain = {counts.gain:g} makes some mean counts negative "
                              f"(1 + gain·m < 0 for the most negative modulation m); lower the gain")
