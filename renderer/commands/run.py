@@ -26,6 +26,9 @@ def register(sub):
     p.add_argument("--max-memory-gb", type=float, default=None,
                    help="memory the run may plan to use, GB (default: half the machine's memory, "
                         "or the environment variable MAGRETINA_MAX_MEMORY_GB)")
+    p.add_argument("--png-encoder", choices=("fast", "small"), default=None,
+                   help="PNG compression preset for this run instead of the study file's "
+                        "output.png_encoder: fast (default) or small files; lossless either way")
     p.set_defaults(func=run)
 
 
@@ -40,7 +43,8 @@ def run(a) -> int:
         raise MagretinaError("--scheduler needs --executor dask")
     s = run_study(a.study, out_dir=a.out, jobs=a.jobs, executor=a.executor,
                   scheduler=a.scheduler, dry=a.dry_run, force=a.force, progress=not a.quiet,
-                  max_memory_gb=a.max_memory_gb, force_jobs=a.force_jobs)
+                  max_memory_gb=a.max_memory_gb, force_jobs=a.force_jobs,
+                  png_encoder=a.png_encoder)
     if a.dry_run:
         return 0
     if s["shots_rendered"] == 0:

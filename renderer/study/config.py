@@ -131,6 +131,9 @@ OUTPUT = {
     "png8": Key(bool, True, doc="PNG frames in the display's codes (8-bit sRGB by default)"),
     "png16": Key(bool, False, doc="16-bit linear PNG frames"),
     "figures": Key(bool, False, doc="annotated figures (for papers; never stimuli)"),
+    "png_encoder": Key(str, "fast", choices=("fast", "small"),
+                       doc="lossless PNG compression preset: fast (default) or small files; "
+                           "the decoded pixels are the same"),
     "preview": Key(str, "none", choices=PREVIEWS),
     "preview_width": Key(int, 256, lo=8, hi=4096, unit="pixels"),
     "video": Key(str, "none", choices=VIDEOS),
@@ -197,8 +200,17 @@ class Study:
         return config_digest(self.resolved)
 
 
+# Settings that change how outputs are stored but not one decoded value: left out of the
+# configuration's identity, so a folder can be resumed with another choice.
+STORAGE_ONLY = (("output", "png_encoder"),)
+
+
 def config_digest(resolved) -> str:
-    return hashlib.sha256(canonical_json(resolved).encode()).hexdigest()
+    ident = dict(resolved)
+    for table, key in STORAGE_ONLY:
+        if isinstance(ident.get(table), dict) and key in ident[table]:
+            ident[table] = {k: v for k, v in ident[table].items() if k != key}
+    return hashlib.sha256(canonical_json(ident).encode()).hexdigest()
 
 
 def read_study(path) -> tuple[bytes, dict]:

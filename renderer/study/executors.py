@@ -9,19 +9,26 @@ file in the study folder's work area that each pool worker loads on its first un
 started, and its workers import the library, while the runner is still planning;
 large initializer arguments would also make the spawned workers start one after
 the other, each blocking the parent until it has read them), or scattered to every
-Dask worker (``broadcast=True``) and passed as futures.  Dask tasks are submitted
-with ``pure=False`` so units with equal arguments are never merged.  Ctrl-C terminates the pool's processes (their files
+Dask worker (``broadcast=True``, once per run) and passed as futures.  Dask gets the
+units in batches (:data:`DASK_BATCHES_PER_WORKER` per worker and round of submissions),
+so a long list of one-frame shots costs a few dozen Dask tasks, not one per shot; its
+cluster is started (and the library imported on the workers) while the runner plans,
+like the local pool.  Dask tasks are submitted with ``pure=False`` so units with equal
+arguments are never merged.  Ctrl-C terminates the pool's processes (their files
 are written atomically, so nothing partial is left visible).  This module does not
 decide what to render.
 """
 
 from __future__ import annotations
 
+import collections
+import math
 import os
 import pickle
 import tempfile
 import uuid
 
+from ..cluster import DaskStart
 from ..errors import MagretinaError
 from . import worker
 from .pipepool import PipePool
@@ -104,44 +111,77 @@ class LocalExecutor:
                     pass
 
 
+# Dask tasks per worker for the units submitted before the runner next waits: enough
+# for the workers to end within a few units of each other, few enough that Dask's own
+# cost per task (scheduling, result transfer; several ms) stays small.
+DASK_BATCHES_PER_WORKER = 8
+
+
+def _run_batch(units, resources):
+    """Run several units in a row on one Dask worker; their results in order."""
+    return [_FUNCS[kind](task, resources[task["res_key"]]) for kind, task in units]
+
+
+def _warm_worker():
+    """Run on every Dask worker once it is up: unpickling this function imports this
+    module and :mod:`.worker` (everything a unit needs) before the first unit arrives."""
+    return os.getpid()
+
+
+def start_dask(jobs, scheduler=None):
+    """Start Dask before the resources are known (see :class:`renderer.cluster.DaskStart`);
+    its workers import the library meanwhile."""
+    return DaskStart(jobs, scheduler, warm=_warm_worker)
+
+
 class DaskExecutor:
-    """A Dask ``Client`` on a new LocalCluster (``jobs`` workers) or on ``scheduler``."""
+    """A Dask ``Client`` on a new LocalCluster (``jobs`` workers) or on ``scheduler``.
+
+    Units are queued by ``submit`` and sent as batches (:func:`_run_batch`) when the
+    runner next waits for a result; the shared resources are scattered once to every
+    worker and stay there for the whole run.
+    """
 
     name = "dask"
 
-    def __init__(self, resources, jobs, scheduler=None):
-        try:  # deferred: dask is the optional [scale] extra
-            from dask.distributed import Client, LocalCluster, as_completed
-        except ImportError:
-            raise MagretinaError("--executor dask needs the scale extra: pip install "
-                                 "'magretina[scale]'") from None
-        self.cluster = None
-        if scheduler:
-            try:
-                self.client = Client(scheduler, timeout="20s")
-            except (OSError, TimeoutError) as exc:
-                raise MagretinaError(f"--scheduler {scheduler}: cannot connect ({exc})") from None
-        else:
-            self.cluster = LocalCluster(n_workers=jobs, threads_per_worker=1, processes=True,
-                                        dashboard_address=None)
-            self.client = Client(self.cluster)
+    def __init__(self, resources, jobs, scheduler=None, started=None):
+        from dask.distributed import as_completed  # deferred: the optional [scale] extra
+
+        started = started or start_dask(jobs, scheduler)
+        self.client, self.cluster = started.wait()
+        self.n_workers = started.n_workers()
         # One copy of each distinct geometry per worker, not one per task.
         self.res = {k: self.client.scatter(v, broadcast=True, hash=False)
                     for k, v in resources.items()}
         self.ac = as_completed()
         self.futures = []
+        self.queued = []
+        self.ready = collections.deque()
 
     def submit(self, kind, task):
-        task = dict(task, numba_threads=1)
-        fut = self.client.submit(_FUNCS[kind], task, self.res[task["res_key"]], pure=False,
-                                 key=f"magretina-{kind}-{task['shot_id']}-{uuid.uuid4().hex[:8]}")
-        self.futures.append(fut)
-        self.ac.add(fut)
+        self.queued.append((kind, dict(task, numba_threads=1)))
+
+    def _flush(self):
+        q, self.queued = self.queued, []
+        if not q:
+            return
+        size = max(1, math.ceil(len(q) / (self.n_workers * DASK_BATCHES_PER_WORKER)))
+        for k in range(0, len(q), size):
+            units = q[k:k + size]
+            res = {key: self.res[key] for key in sorted({t["res_key"] for _, t in units})}
+            fut = self.client.submit(_run_batch, units, res, pure=False,
+                                     key=f"magretina-batch-{units[0][1]['shot_id']}-"
+                                         f"{uuid.uuid4().hex[:8]}")
+            self.futures.append(fut)
+            self.ac.add(fut)
 
     def next_result(self):
-        fut = next(self.ac)
-        self.futures.remove(fut)
-        return fut.result()
+        if not self.ready:
+            self._flush()
+            fut = next(self.ac)
+            self.futures.remove(fut)
+            self.ready.extend(fut.result())
+        return self.ready.popleft()
 
     def close(self, cancel=False):
         try:
@@ -170,13 +210,14 @@ def make_executor(kind, resources, jobs, scheduler=None, started=None, work_dir=
     if jobs < 1:
         raise MagretinaError(f"--jobs {jobs}: must be >= 1")
     if kind == "dask":
-        return DaskExecutor(resources, jobs, scheduler)
+        return DaskExecutor(resources, jobs, scheduler,
+                            started if isinstance(started, DaskStart) else None)
     if scheduler:
         raise MagretinaError("--scheduler needs --executor dask")
     threads = _threads_per_worker(jobs)
     if jobs == 1:
         return InlineExecutor(resources, threads)
-    if started is not None:
+    if isinstance(started, LocalExecutor):
         started.set_resources(resources, work_dir)
         return started
     return LocalExecutor(resources, jobs, threads, work_dir)

@@ -26,9 +26,10 @@ from .. import budget
 from ..budget import check_jobs
 from ..errors import ConfigError, MagretinaError
 from ..inputs import image_size
+from ..io import check_png_encoder
 from . import exports, outputs
 from .build import build_resources, build_view
-from .executors import make_executor, start_local
+from .executors import make_executor, start_dask, start_local
 from .expand import load_study, snake
 from .expand import plan as make_plan
 from .orientation import study_outputs
@@ -176,7 +177,7 @@ class _ShotState:
 
 def run_study(study_path, out_dir=None, jobs=1, executor="local", scheduler=None,
               dry=False, force=False, progress=True, stream=None, chunk_frames=None,
-              max_memory_gb=None, force_jobs=False) -> dict:
+              max_memory_gb=None, force_jobs=False, png_encoder=None) -> dict:
     """Run (or resume) a study into ``out_dir``; returns a summary dict.
 
     Parameters
@@ -189,21 +190,29 @@ def run_study(study_path, out_dir=None, jobs=1, executor="local", scheduler=None
     force : allow replacing another study's folder
     max_memory_gb : memory limit (GB) instead of the default, see :mod:`renderer.budget`
     force_jobs : allow more workers than CPUs
+    png_encoder : "fast" or "small" instead of the study file's ``output.png_encoder``
+        (``--png-encoder``; compression only, the decoded pixels are the same)
     """
     stream = stream or sys.stdout
     t0 = time.perf_counter()
     check_jobs(jobs, force_jobs)
     if out_dir is not None:
         _check_out_dir(out_dir)
+    if png_encoder is not None:
+        check_png_encoder(png_encoder, "--png-encoder")
     study = load_study(study_path)
     started = None
     if not dry and executor == "local" and not scheduler and jobs > 1:
         # Workers spawn and import the library while this process plans; they get the
         # resources with their first unit.
         started = start_local(jobs)
+    elif not dry and executor == "dask":
+        # The same for Dask: the cluster starts and its workers import the library
+        # while this process plans.
+        started = start_dask(jobs, scheduler)
     try:
         return _run(study, out_dir, jobs, executor, scheduler, dry, force, progress, stream,
-                    chunk_frames, t0, started, max_memory_gb)
+                    chunk_frames, t0, started, max_memory_gb, png_encoder)
     finally:
         if started is not None:
             started.close(cancel=True)
@@ -220,7 +229,7 @@ def _check_out_dir(out_dir):
 
 
 def _run(study, out_dir, jobs, executor, scheduler, dry, force, progress, stream, chunk_frames,
-         t0, started, max_memory_gb=None):
+         t0, started, max_memory_gb=None, png_encoder=None):
     plan = make_plan(study)
     if out_dir is None:
         out_dir = os.path.join("outputs", snake(study.resolved["study"]["name"]))
@@ -313,7 +322,7 @@ def _run(study, out_dir, jobs, executor, scheduler, dry, force, progress, stream
                                work_dir=outputs.work_dir(out_dir))
             outstanding = 0
             for shot, frames in units:
-                ex.submit("render", _chunk_task(plan, shot, frames, out_dir))
+                ex.submit("render", _chunk_task(plan, shot, frames, out_dir, png_encoder))
                 outstanding += 1
             for st in states.values():
                 if st.shot.index not in entries and st.chunks_left == 0:
@@ -370,7 +379,7 @@ def _display_task(cfg, base_dir):
     return d
 
 
-def _chunk_task(plan, shot, frames, out_dir):
+def _chunk_task(plan, shot, frames, out_dir, png_encoder=None):
     cfg = shot.config
     return {"shot": shot.index, "shot_id": shot.shot_id, "seed": shot.seed,
             "display": _display_task(cfg, plan.study.base_dir),
@@ -379,6 +388,7 @@ def _chunk_task(plan, shot, frames, out_dir):
             "params": shot.params, "res_key": shot.res_key, "out_dir": out_dir,
             "field_model": cfg["field"]["model"], "gain": cfg["render"]["gain"],
             "outside": cfg["render"]["outside"], "frames": frames,
+            "png_encoder": png_encoder or cfg["output"].get("png_encoder", "fast"),
             "providers": cfg["metrics"]["providers"],
             "provider_options": cfg["metrics"]["options"]}
 

@@ -16,6 +16,7 @@ from __future__ import annotations
 
 import json
 import os
+from concurrent.futures import ThreadPoolExecutor
 import pickle
 import signal
 
@@ -134,9 +135,63 @@ def figure_bytes(ctx, vname, img, labels, fr) -> bytes:
     return png_bytes(fig, pngmeta.srgb_chunks() + list(labels))
 
 
+# Frames whose files may be in the writer's hands at once; beyond that the render loop
+# waits.  Two keep the writer busy while the next frame renders, and bound the memory
+# (a 2048 x 1024 frame in float32 is 24 MB).
+WRITE_AHEAD = 2
+
+
+def _write_file(path, rel, make_bytes, meta):
+    """Writer-thread job: encode, write atomically (fsynced), hash; the file's record."""
+    data = make_bytes()
+    atomic_write_bytes(path, data)
+    return {"path": rel, "sha256": sha256_bytes(data), "bytes": len(data), **meta}
+
+
+class _FrameWriter:
+    """Encodes, hashes and writes a chunk's files on one thread while the render loop
+    goes on (PNG encoding, SHA-256 and fsync release the GIL), and hands back each
+    frame's records in frame order once all of that frame's files are on disk.
+
+    At most :data:`WRITE_AHEAD` frames are outstanding; ``done`` is called with
+    (frame index, records, metrics flag) in submission order, so the journal still
+    records a frame only after its files were renamed into place.
+    """
+
+    def __init__(self, done):
+        self._pool = ThreadPoolExecutor(1, thread_name_prefix="magretina-writer")
+        self._pending = []
+        self._done = done
+
+    def submit_frame(self, i, jobs, extra):
+        """Queue frame i's files (jobs of :func:`_write_file` arguments)."""
+        self._pending.append((i, [self._pool.submit(_write_file, *j) for j in jobs], extra))
+
+    def collect(self, keep=WRITE_AHEAD):
+        """Hand back the frames already written, and wait while more than ``keep`` are
+        outstanding."""
+        self._collect(keep)
+
+    def _collect(self, keep):
+        while self._pending and (len(self._pending) > keep or
+                                 all(f.done() for f in self._pending[0][1])):
+            i, futs, extra = self._pending.pop(0)
+            self._done(i, [f.result() for f in futs], extra)
+
+    def finish(self):
+        self._collect(keep=0)
+
+    def close(self):
+        # Let writes already started finish (each is atomic either way), then stop.
+        self._pool.shutdown(wait=True, cancel_futures=True)
+
+
 def render_chunk(task: dict, resources=None) -> dict:
     """Render frames ``task["frames"]`` of one shot; see the module docstring.
 
+    Rendering and file output overlap: each frame's files are encoded, written and
+    hashed by a writer thread (:class:`_FrameWriter`) while the metrics and the next
+    frame are computed.
     Returns ``{"shot", "records": [...], "metrics": {frame: {...}}, "frames": n}``.
     """
     res = _resources(task, resources)
@@ -146,64 +201,84 @@ def render_chunk(task: dict, resources=None) -> dict:
     display, grey = _display(dcfg)
     method = dcfg.get("dither", "none")
     temporal = dcfg.get("temporal", True)
+    encoder = task.get("png_encoder")
     records, metrics = [], {}
-    for fr in task["frames"]:
-        if parent_gone():
-            # The runner was killed: stop rather than write frames that a resumed run
-            # (possibly already running) will write itself.
-            raise SystemExit(0)
-        i = fr["index"]
-        first = len(records)
-        field = FieldVector(np.asarray(fr["b_ned_T"]), model=task["field_model"])
-        pose = Pose(fr["yaw_deg"], fr["pitch_deg"], fr["roll_deg"])
-        rkey = fr["response"]
-        response, product = res.responses[rkey], res.products[rkey]
-        inputs = prepare(field, pose, res.layout, response, product)
-        mean = visual_field_mean(inputs)
-        if mean == 0.0:
-            raise MagretinaError(f"{task['shot_id']} frame {i}: the mean signal over the visual "
-                             f"field is 0; modulation undefined")
-        ctx = metrics_mod.MetricContext(
-            shot=task["shot"], shot_id=task["shot_id"], frame=i, t_s=fr["t_s"],
-            seed=task["seed"], params=task["params"], field=field,
-            ambient_ned_T=np.asarray(fr["ambient_ned_T"]), pose=pose,
-            layout=res.layout, response=response, product=product,
-            gain=task["gain"], views=res.views, inputs=inputs, mean_signal=mean,
-            metric_views=res.metric_views, display=display, dither=method,
-            temporal=temporal, pattern_grey=grey, scene=res.scene,
-            outside=task["outside"])
-        images, codes_of = ctx.images, ctx.codes
-        for vi, (vname, view) in enumerate(res.views.items()):
-            targets = fr["files"][vname]  # encoding -> relative path to write (only those)
-            if not targets:
-                continue
-            img = composite_inputs(inputs, mean, res.layout, view, res.scene, task["gain"],
-                                   task["outside"])
-            images[vname] = img
-            for enc, rel in targets.items():
-                labels = frame_labels(task, fr, vname, view, enc, field, pose, res.layout,
-                                      response, product, display)
-                if enc == "figure":
-                    data = figure_bytes(ctx, vname, img, labels, fr)
-                elif enc == "png8":
-                    codes = quantise(display, img, method, frame_seed(task["seed"], i, temporal,
-                                                                      view=vi))
-                    codes_of[vname] = codes
-                    data = display_png_bytes(codes, display, labels)
-                else:
-                    data = linear16_png_bytes(img, labels)
-                atomic_write_bytes(os.path.join(out_dir, rel), data)
-                records.append({"path": rel, "sha256": sha256_bytes(data), "bytes": len(data),
-                                "frame": i, "view": vname, "encoding": enc})
-        if fr["metrics"]:
-            metrics[i] = metrics_mod.compute(ctx, task["providers"], task["provider_options"])
+
+    def frame_done(i, recs, has_metrics):
+        records.extend(recs)
         if task.get("journal", True):
             # Recorded as soon as its files are on disk (each was fsynced and renamed), so a
             # run killed from here on never renders this frame again.
             append_manifest(out_dir, {"shot": task["shot"], "partial": True, "frame": i,
-                                      "files": records[first:],
-                                      "metrics": {str(i): metrics.get(i)} if fr["metrics"]
+                                      "files": recs,
+                                      "metrics": {str(i): metrics.get(i)} if has_metrics
                                       else {}})
+
+    writer = _FrameWriter(frame_done)
+    try:
+        for fr in task["frames"]:
+            if parent_gone():
+                # The runner was killed: stop rather than write frames that a resumed run
+                # (possibly already running) will write itself.
+                raise SystemExit(0)
+            i = fr["index"]
+            field = FieldVector(np.asarray(fr["b_ned_T"]), model=task["field_model"])
+            pose = Pose(fr["yaw_deg"], fr["pitch_deg"], fr["roll_deg"])
+            rkey = fr["response"]
+            response, product = res.responses[rkey], res.products[rkey]
+            inputs = prepare(field, pose, res.layout, response, product)
+            mean = visual_field_mean(inputs)
+            if mean == 0.0:
+                raise MagretinaError(f"{task['shot_id']} frame {i}: the mean signal over the "
+                                     f"visual field is 0; modulation undefined")
+            ctx = metrics_mod.MetricContext(
+                shot=task["shot"], shot_id=task["shot_id"], frame=i, t_s=fr["t_s"],
+                seed=task["seed"], params=task["params"], field=field,
+                ambient_ned_T=np.asarray(fr["ambient_ned_T"]), pose=pose,
+                layout=res.layout, response=response, product=product,
+                gain=task["gain"], views=res.views, inputs=inputs, mean_signal=mean,
+                metric_views=res.metric_views, display=display, dither=method,
+                temporal=temporal, pattern_grey=grey, scene=res.scene,
+                outside=task["outside"])
+            images, codes_of = ctx.images, ctx.codes
+            jobs = []
+            for vi, (vname, view) in enumerate(res.views.items()):
+                targets = fr["files"][vname]  # encoding -> relative path to write (only those)
+                if not targets:
+                    continue
+                img = composite_inputs(inputs, mean, res.layout, view, res.scene, task["gain"],
+                                       task["outside"])
+                images[vname] = img
+                for enc, rel in targets.items():
+                    labels = frame_labels(task, fr, vname, view, enc, field, pose, res.layout,
+                                          response, product, display)
+                    if enc == "figure":
+                        data = figure_bytes(ctx, vname, img, labels, fr)
+
+                        def make(data=data):
+                            return data
+                    elif enc == "png8":
+                        # quantised here: the display metrics reuse the codes
+                        codes = quantise(display, img, method,
+                                         frame_seed(task["seed"], i, temporal, view=vi))
+                        codes_of[vname] = codes
+
+                        def make(codes=codes, labels=labels):
+                            return display_png_bytes(codes, display, labels, encoder)
+                    else:
+                        def make(img=img, labels=labels):
+                            return linear16_png_bytes(img, labels, encoder)
+                    jobs.append((os.path.join(out_dir, rel), rel, make,
+                                 {"frame": i, "view": vname, "encoding": enc}))
+            writer.submit_frame(i, jobs, bool(fr["metrics"]))
+            if fr["metrics"]:
+                # Computed while the writer encodes this frame; its journal line waits
+                # for both.
+                metrics[i] = metrics_mod.compute(ctx, task["providers"], task["provider_options"])
+            writer.collect()
+        writer.finish()
+    finally:
+        writer.close()
     return {"shot": task["shot"], "records": records, "metrics": metrics,
             "frames": len(task["frames"])}
 
