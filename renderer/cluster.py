@@ -5,7 +5,7 @@ One place decides how a cluster is reached: a new ``LocalCluster`` of worker pro
 does it in a background thread, so the caller can plan while the workers start and
 import the library (``warm``, run once on every worker).  This module does not decide
 what runs on the workers (see :mod:`renderer.study.executors` and
-:mod:`renderer.spin.cluster`).
+:mod:`renderer.response.cluster`).
 """
 
 from __future__ import annotations

@@ -40,6 +40,12 @@ def register(subparsers):
     c.add_argument("--no-cache", action="store_true", help="neither read nor write the disk cache")
     c.add_argument("--out", required=True, metavar="TABLE", help="output table file (.npz)")
     c.add_argument("--force", action="store_true", help="overwrite an existing --out file")
+    c.add_argument("--executor", default="local", choices=("local", "dask"),
+                   help="solve the directions here or on Dask (default local; the table is "
+                        "the same bitwise)")
+    c.add_argument("--jobs", type=int, default=2,
+                   help="Dask LocalCluster worker processes (default 2; with --executor dask)")
+    c.add_argument("--scheduler", help="address of an existing Dask scheduler (tcp://HOST:PORT)")
     c.set_defaults(func=cmd_compute)
 
     s = sub.add_parser("show", help="print a table's summary and write a plot beside it")
@@ -105,9 +111,24 @@ def cmd_compute(args) -> int:
           f"k_s = {pair.k_s:g} s^-1, k_t = {pair.k_t:g} s^-1, solver '{method}', "
           f"{n_nodes} directions ({n_nodes // 2} solved, inversion symmetry)")
     meta = {"pair_input": os.fspath(args.pair), **{f"pair_{k}": v for k, v in info.items()}}
-    with tqdm(total=n_nodes, unit="dir", desc="directions") as bar:
-        table = compute_spin_table(pair, field_uT * 1e-6, lmax=args.lmax, method=method,
-                                   use_cache=not args.no_cache, progress=bar.update, meta=meta)
+    executor = getattr(args, "executor", "local")
+    if getattr(args, "scheduler", None) and executor != "dask":
+        raise MagretinaError("--scheduler needs --executor dask")
+    if executor == "dask":
+        from ..response.cluster import compute_spin_tables
+
+        if args.jobs < 1:
+            raise MagretinaError(f"--jobs {args.jobs}: must be >= 1")
+        with tqdm(total=n_nodes, unit="dir", desc="directions") as bar:
+            (table,) = compute_spin_tables(
+                [{"pair": pair, "field_T": field_uT * 1e-6, "lmax": args.lmax,
+                  "method": method, "meta": meta}], jobs=args.jobs, scheduler=args.scheduler,
+                use_cache=not args.no_cache, progress=bar.update)
+    else:
+        with tqdm(total=n_nodes, unit="dir", desc="directions") as bar:
+            table = compute_spin_table(pair, field_uT * 1e-6, lmax=args.lmax, method=method,
+                                       use_cache=not args.no_cache, progress=bar.update,
+                                       meta=meta)
     out = table.save(args.out)
     _print_summary(table)
     print(f"wrote {out}")

@@ -17,6 +17,7 @@ from __future__ import annotations
 
 import datetime as _dt
 import math
+from dataclasses import dataclass
 
 import numpy as np
 
@@ -183,6 +184,78 @@ def table_params(pair, field_T, lmax, order, method) -> dict:
             "method": method}
 
 
+@dataclass(frozen=True)
+class TableJob:
+    """One table to compute: the validated parameters and the directions to solve.
+
+    ``fields_T`` (n_solved, 3) are the field vectors (T, molecular frame) of the Lebedev
+    nodes kept after inversion symmetry; :func:`finish_table` turns their singlet yields
+    into the :class:`SpinTable` (the same arithmetic wherever the yields were solved).
+    """
+
+    pair: object
+    field_T: float
+    lmax: int
+    order: int
+    method: str
+    params: dict
+    key: str
+    nodes: np.ndarray
+    weights: np.ndarray
+    keep: np.ndarray
+    partner: np.ndarray
+
+    @property
+    def fields_T(self) -> np.ndarray:
+        return self.field_T * self.nodes[self.keep]
+
+
+def prepare_table(pair, field_T, lmax=DEFAULT_LMAX, order=None, method="auto") -> TableJob:
+    """Check a table's parameters and list its directions (see :func:`compute_spin_table`)."""
+    b = float(field_T)
+    if not math.isfinite(b) or b < 0:
+        raise MagretinaError(f"field magnitude = {field_T!r} T is out of range; allowed [0, inf)")
+    lmax = int(lmax)
+    if lmax < 0 or lmax % 2:
+        raise MagretinaError(f"l_max = {lmax} must be an even degree >= 0 (singlet yields are even "
+                             f"in the field direction)")
+    order = lebedev_order_for(2 * lmax + 5) if order is None else int(order)
+    if lebedev_order_for(order) != order or order < 2 * lmax:
+        raise MagretinaError(f"Lebedev order {order} must be an available order >= 2*l_max = "
+                             f"{2 * lmax}")
+    resolved = choose_method(pair, method)
+    params = table_params(pair, b, lmax, order, resolved)
+    nodes, weights = lebedev_grid(order)
+    keep, partner = antipodal_pairs(nodes)
+    return TableJob(pair, b, lmax, order, resolved, params, cache.cache_key(params), nodes,
+                    weights, keep, partner)
+
+
+def cached_table(job: TableJob, meta=None):
+    """The job's table from the disk cache, or None."""
+    hit = cache.lookup(CACHE_KIND, job.key)
+    if hit is None:
+        return None
+    arrays, m = hit
+    m.update(dict(meta or {}))
+    return SpinTable(arrays["coeffs"], nodes=arrays["nodes"], values=arrays["values"],
+                     meta={**m, "from_cache": True})
+
+
+def finish_table(job: TableJob, vals_keep, use_cache=True, meta=None) -> SpinTable:
+    """Fit the singlet yields at ``job.fields_T`` into the table; cache it atomically."""
+    values, coeffs, fit = _fit_even(job.lmax, job.nodes, job.weights, job.keep, job.partner,
+                                    vals_keep)
+    m = {**job.params, "cache_key": job.key, **fit, "dim": int(job.pair.dim),
+         "created_utc": _dt.datetime.now(_dt.timezone.utc).isoformat(timespec="seconds"),
+         "note": "model prediction of a radical-pair hypothesis, not a measurement"}
+    if use_cache:
+        cache.store(CACHE_KIND, job.key, {"coeffs": coeffs, "nodes": job.nodes,
+                                          "values": values}, m)
+    m.update(dict(meta or {}))
+    return SpinTable(coeffs, nodes=job.nodes, values=values, meta=m)
+
+
 def compute_spin_table(pair, field_T, lmax=DEFAULT_LMAX, order=None, method="auto",
                        use_cache=True, progress=None, meta=None) -> SpinTable:
     """Compute (or fetch from the cache) the full-sphere singlet-yield table of a pair.
@@ -209,44 +282,24 @@ def compute_spin_table(pair, field_T, lmax=DEFAULT_LMAX, order=None, method="aut
     Returns
     -------
     SpinTable
+
+    See Also
+    --------
+    renderer.response.cluster.compute_spin_tables : the same tables (bitwise) with their
+        directions solved on a Dask cluster.
     """
-    b = float(field_T)
-    if not math.isfinite(b) or b < 0:
-        raise MagretinaError(f"field magnitude = {field_T!r} T is out of range; allowed [0, inf)")
-    lmax = int(lmax)
-    if lmax < 0 or lmax % 2:
-        raise MagretinaError(f"l_max = {lmax} must be an even degree >= 0 (singlet yields are even "
-                             f"in the field direction)")
-    order = lebedev_order_for(2 * lmax + 5) if order is None else int(order)
-    if lebedev_order_for(order) != order or order < 2 * lmax:
-        raise MagretinaError(f"Lebedev order {order} must be an available order >= 2*l_max = "
-                             f"{2 * lmax}")
-    resolved = choose_method(pair, method)
-    params = table_params(pair, b, lmax, order, resolved)
-    key = cache.cache_key(params)
-    extra = dict(meta or {})
+    job = prepare_table(pair, field_T, lmax, order, method)
     if use_cache:
-        hit = cache.lookup(CACHE_KIND, key)
+        hit = cached_table(job, meta)
         if hit is not None:
-            arrays, m = hit
             if progress is not None:
-                progress(len(arrays["nodes"]))
-            m.update(extra)
-            return SpinTable(arrays["coeffs"], nodes=arrays["nodes"], values=arrays["values"],
-                             meta={**m, "from_cache": True})
-    nodes, weights = lebedev_grid(order)
-    keep, partner = antipodal_pairs(nodes)
+                progress(len(hit.nodes))
+            return hit
     if progress is not None:  # the partner nodes cost nothing
-        progress(len(nodes) - len(keep))
-    vals_keep = np.asarray(singlet_yield(pair, b * nodes[keep], method=resolved, progress=progress))
-    values, coeffs, fit = _fit_even(lmax, nodes, weights, keep, partner, vals_keep)
-    m = {**params, "cache_key": key, **fit, "dim": int(pair.dim),
-         "created_utc": _dt.datetime.now(_dt.timezone.utc).isoformat(timespec="seconds"),
-         "note": "model prediction of a radical-pair hypothesis, not a measurement"}
-    if use_cache:
-        cache.store(CACHE_KIND, key, {"coeffs": coeffs, "nodes": nodes, "values": values}, m)
-    m.update(extra)
-    return SpinTable(coeffs, nodes=nodes, values=values, meta=m)
+        progress(len(job.nodes) - len(job.keep))
+    vals_keep = np.asarray(singlet_yield(pair, job.fields_T, method=job.method,
+                                         progress=progress))
+    return finish_table(job, vals_keep, use_cache, meta)
 
 
 def compute_table(fn, field_T, params, *, lmax=16, order=None, run_dir=None, progress=None,
