@@ -18,6 +18,7 @@ from .errors import MagretinaError
 def need_dask():
     """Import dask.distributed, or raise the MagretinaError that names the extra to install."""
     try:
+        # deferred: dask is the optional [scale] extra
         import dask.distributed  # noqa: F401
     except ImportError:
         raise MagretinaError("--executor dask needs the scale extra: pip install "
@@ -46,7 +47,7 @@ class DaskStart:
         self.thread.start()
 
     def _start(self):
-        from dask.distributed import Client, LocalCluster
+        from dask.distributed import Client, LocalCluster  # deferred: optional [scale] extra
 
         try:
             if self.scheduler:

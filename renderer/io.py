@@ -16,6 +16,7 @@ import hashlib
 import io
 import json
 import os
+import struct
 import tempfile
 
 import numpy as np
@@ -146,8 +147,6 @@ def check_png_encoder(name, where="output.png_encoder"):
 
 def _drop_chunks(png: bytes, kinds) -> bytes:
     """The PNG stream without the chunks of the given types."""
-    import struct
-
     out, i = [png[:8]], 8
     while i < len(png):
         n = struct.unpack(">I", png[i:i + 4])[0]
@@ -162,7 +161,7 @@ def _encode_library(a, fast):
     a = np.ascontiguousarray(a)
     if fast and a.dtype == np.uint8 and a.ndim == 3 and a.shape[2] in (3, 4):
         try:
-            import fpng
+            import fpng  # deferred: optional fast encoder, loaded on first use
         except ImportError:
             fpng = None
         if fpng is not None:
@@ -171,7 +170,7 @@ def _encode_library(a, fast):
             # it, but the file should carry only chunks magretina means
             return _drop_chunks(fpng.from_bytes(a.tobytes(), W, H, C), (b"fdEC",))
     try:
-        import imagecodecs
+        import imagecodecs  # deferred: large codec library, loaded on first use
     except ImportError:
         return None
     if fast:

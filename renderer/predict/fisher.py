@@ -40,6 +40,7 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
+import numba
 from numba import njit, prange
 from numpy.polynomial import legendre as npleg
 from scipy.interpolate import CubicSpline
@@ -523,8 +524,6 @@ def _unit_terms(amp, sv, gv, inv, k2, gain, var_a, var_b, q, m, j0, n):
 
 
 def _threads():
-    import numba
-
     return numba.get_num_threads()
 
 
@@ -533,8 +532,6 @@ def fisher_work(n_receptors, threads=None) -> np.ndarray:
     (or ``threads``).  Allocated once by the caller and reused for every call, so the
     kernel touches no fresh pages per heading."""
     if threads is None:
-        import numba
-
         threads = numba.get_num_threads()
     return np.empty((max(1, int(threads)), 2, int(n_receptors)))
 

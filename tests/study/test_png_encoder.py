@@ -131,7 +131,7 @@ def test_study_encoder_choice_changes_compression_only(tmp_path):
     da, db = tree_digest(a), tree_digest(b)
     for rel in ("conditions.csv", "metrics.csv"):
         assert da[rel] == db[rel]
-    from renderer.study.config import load_study
+    from renderer.study.expand import load_study
 
     assert load_study(fast).config_sha256 == load_study(small).config_sha256
     # resuming the "fast" folder with the "small" study file is the same study
