@@ -36,13 +36,27 @@ from dataclasses import dataclass
 import numpy as np
 
 import scipy.fft as sfft
-from threadpoolctl import threadpool_limits
+from threadpoolctl import ThreadpoolController
 
 from ..errors import MagretinaError
 from .hamiltonian import larmor_frequency_Hz, pair_operators, radical_operators, singlet_projector
 from .large import BINNING_BOUND_CONST, _check_separable, _lagrange4, from_singlet_born
 from .solvers import singlet_yield
 from .system import RadicalPair
+
+
+_BLAS = []
+
+
+def _single_blas():
+    """Context limiting BLAS to one thread (small dense eigenproblems: threads only contend).
+
+    The controller is built once: scanning the loaded libraries costs more than a small
+    Floquet solve, and tables call the solver thousands of times.
+    """
+    if not _BLAS:
+        _BLAS.append(ThreadpoolController())
+    return _BLAS[0].limit(limits=1, user_api="blas")
 
 
 # --------------------------------------------------------------------------------------
@@ -289,7 +303,7 @@ def floquet_singlet_yield(pair: RadicalPair, field_T, rf: RFField, *, n_harmonic
     b0 = np.asarray(field_T, dtype=np.float64).reshape(3)
     rf.check_against(b0)
     # small dense eigenproblems: threaded BLAS only adds contention
-    with threadpool_limits(1, user_api="blas"):
+    with _single_blas():
         return _floquet_auto(pair, b0, rf, n_harmonics, tol, max_harmonics, return_info)
 
 
@@ -616,7 +630,7 @@ def floquet_separable_yield(pair: RadicalPair, field_T, rf: RFField, *, n_harmon
     b0 = np.asarray(field_T, dtype=np.float64).reshape(3)
     rf.check_against(b0)
     k = pair.k_s
-    with threadpool_limits(1, user_api="blas"):
+    with _single_blas():
         def once(n_h):
             fa = _radical_floquet(pair.a, b0, rf, n_h)
             fb = _radical_floquet(pair.b, b0, rf, n_h)

@@ -37,3 +37,17 @@ def test_bad_input_exit_status_2(tmp_path, capsys):
                  "--out", str(tmp_path / "t.npz")]) == 2
     assert "--rf-mhz" in capsys.readouterr().err
     assert main(["spin-plan", "no-such-preset", "--field-uT", "50"]) == 2
+
+
+def test_rf_lab_table_shows_cost_and_refuses_over_limit(tmp_path, capsys):
+    """rf-lab-table prints its plan (solves, memory) first and exits 2 over the memory limit,
+    writing nothing (renderer.budget contract, common practice for CLI limits)."""
+    out = tmp_path / "lab.npz"
+    assert main(["rf-lab-table", "toy-axial-n", "--field-ut", "50", "--rf-nt", "500", "--rf-mhz", "1.4",
+                 "--lmax", "4", "--lmax-rf", "2", "--max-memory-gb", "0.000001", "--out", str(out)]) == 2
+    cap = capsys.readouterr()
+    assert "Floquet solves" in cap.out and "the limit is" in cap.err
+    assert not out.exists()
+    assert main(["rf-lab-table", "toy-axial-n", "--field-ut", "50", "--rf-nt", "500", "--rf-mhz", "1.4",
+                 "--lmax-rf", "3", "--out", str(out)]) == 2
+    assert "--lmax-rf = 3" in capsys.readouterr().err
