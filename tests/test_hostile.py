@@ -200,6 +200,26 @@ def test_huge_linspace_is_refused_by_the_frame_budget_before_expansion(tmp_path,
     refused(["run", s, "--dry-run"], capsys, "1200000 frames")
 
 
+def test_long_sweep_over_a_broken_study_is_checked_per_table(tmp_path, capsys, monkeypatch):
+    """Found by the fuzz campaign: a study with a problem elsewhere and a linspace of
+    100,000 values validated the whole study once per value while reporting (minutes).
+    The report re-checks only the swept table: 100,000 [render] checks, nothing else."""
+    from renderer.study import config as cfgmod
+
+    s = small(tmp_path, name="", frames=1, extra='\n[[sweep.axis]]\nkey = "render.gain"\n'
+                                                  'linspace = [0.0, 5.0, 100000]\n')
+    calls = {}
+    real = cfgmod.check_response
+
+    def counting(*a, **k):
+        calls["response"] = calls.get("response", 0) + 1
+        return real(*a, **k)
+
+    monkeypatch.setattr(cfgmod, "check_response", counting)
+    refused(["run", s, "--dry-run"], capsys, "study.name")
+    assert calls == {"response": 1}
+
+
 # ------------------------------------------------------------------ output paths, names
 def test_output_paths(tmp_path, capsys):
     s = small(tmp_path)

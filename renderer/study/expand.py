@@ -271,7 +271,10 @@ def load_study(path) -> Study:
     if problems:
         # Also report bad sweep values now, not after the first round of fixes.
         if isinstance(resolved.get("sweep"), dict):
-            build_axes(raw, base, resolved["sweep"], problems, known=set(problems))
+            # Sectional checks (only the swept table's steps per value, each distinct
+            # value once), so a long sweep over a broken study stays cheap to report.
+            build_axes(raw, base, resolved["sweep"], problems, known=set(problems),
+                       base=resolved, cache={})
         raise ConfigError(problems, source=os.fspath(path))
     return Study(os.fspath(path), base, hashlib.sha256(data).hexdigest(), raw, resolved)
 
