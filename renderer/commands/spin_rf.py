@@ -61,7 +61,7 @@ def _memory_limit(args, processes):
     shared limit (so 'auto' picks a method that fits both)."""
     # deferred: library modules load when the command runs, so start-up stays light
     from .. import budget
-    from ..spin.system import memory_limit_bytes
+    from ..spin.planner import memory_limit_bytes
 
     share = budget.memory_limit_bytes(getattr(args, "max_memory_gb", None))
     return min(memory_limit_bytes(), share // (processes + (1 if processes > 1 else 0)))
