@@ -20,7 +20,12 @@ def run(a) -> int:
     # deferred: library modules load when the command runs, so start-up stays light
     from ..demo import CAUTION, SITE, run_demo
 
+    from ..warmup import ensure
+
     display, method, seed = _common.display_from_args(a)
+    # on a cold cache: say so, and compile in two processes (later runs load them)
+    ensure(["pattern_equirect", "composite_world_aligned", "composite_resampled",
+            "composite_dirs"])
     files = run_demo(a.out, width=a.width, force=a.force, display=display, dither=method,
                      dither_seed=seed)
     from ..vocabulary import latlon_text

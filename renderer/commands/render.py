@@ -181,6 +181,11 @@ def run(a) -> int:
     response = _common.response_from_args(a)
     _common.check_response_mean(response, a.product, "the response")
     scene = _common.scene_from_args(a, view.shape[1])
+    from ..warmup import ensure, names_for
+
+    # on a cold cache: say so, and compile in two processes (later runs load them)
+    ensure(names_for([view], None if scene is None else scene.image.shape,
+                     patterns=bool(a.pattern or a.figure or sidecar)))
     img = pipeline.render(field, pose, layout, response, view, scene=scene, gain=a.gain,
                           product=a.product, outside=a.outside)
     params = frame_params(field, pose, layout, response, view, a.gain, a.product, display,

@@ -35,7 +35,7 @@ P_COS_IN, P_COS_OUT = 16, 17           # cos(smallest), cos(largest) half-width
 
 MODE_AXIAL, MODE_RATIO, MODE_FULL_MERIDIAN, MODE_FULL_FIXED = 0, 1, 2, 3
 
-_NO_CUBES = np.zeros((1, 6, 2, 2))
+_NO_CUBES = np.zeros((1, 6, 2, 2), np.float32)
 
 
 def pack_eyes(layout, lut_rows=None, cube_rows=None):

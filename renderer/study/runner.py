@@ -249,6 +249,14 @@ def _run(study, out_dir, jobs, executor, scheduler, dry, force, progress, stream
         outputs.folder_verdict(out_dir, study.config_sha256, force)
         return dry_run(plan, out_dir, stream, est=est)
 
+    # On a cold cache: say so and compile what the views need here, in two processes,
+    # before any worker starts (workers would otherwise each compile the same kernels).
+    from ..warmup import ensure, names_for
+
+    ensure([n for r in resources.values()
+            for n in names_for(r.views.values(), getattr(getattr(r.scene, "image", None),
+                                                         "shape", None), patterns=True)])
+
     old = outputs.claim_folder(out_dir, study.config_sha256, force)
     sidecar = outputs.study_sidecar(plan, encodings_of(study.resolved))
     sj = os.path.join(out_dir, outputs.STUDY_JSON)
