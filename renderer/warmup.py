@@ -21,6 +21,16 @@ import os
 import subprocess
 import sys
 
+from . import kernels  # noqa: F401  (its import runs the stale-cache check)
+from .eye import load_layout
+from .field.fixed import fixed
+from .kernels import _cache
+from .pipeline import composite_inputs, prepare, signal_map
+from .pose import Pose
+from .response import Legendre
+from .scene import dusk
+from .views import EyeDisc, HeadPanorama, WorldPanorama
+
 #: Entry point -> (module of renderer.kernels, compiled function).
 ENTRIES = {
     "pattern_equirect": ("rows", "_pattern_equirect"),
@@ -38,8 +48,6 @@ COST_S = {"pattern_equirect": 14, "pattern_dirs": 6, "composite_world_aligned": 
 
 
 def _cache_dir():
-    from .kernels import _cache
-
     return _cache.numba_cache_dir(os.path.dirname(os.path.abspath(_cache.__file__)))
 
 
@@ -48,8 +56,7 @@ def missing(names) -> list[str]:
 
     Imports :mod:`renderer.kernels` first, so stale entries are already gone.
     """
-    from . import kernels  # noqa: F401  (runs the stale-cache check)
-
+    # renderer.kernels, imported above, has already removed stale entries
     path = _cache_dir()
     if path is None:
         return list(names)
@@ -88,14 +95,6 @@ def names_for(views, scene_shape=None, patterns=False) -> list[str]:
 
 def compile_entries(names):
     """Compile (or load) ``names`` in this process on tiny inputs of the real types."""
-    from .eye import load_layout
-    from .field.fixed import fixed
-    from .pipeline import signal_map, composite_inputs, prepare
-    from .pose import Pose
-    from .response import Legendre
-    from .scene import dusk
-    from .views import EyeDisc, HeadPanorama, WorldPanorama
-
     layout = load_layout("lateral")
     inputs = prepare(fixed(50.0, 60.0), Pose(0.0), layout, Legendre((0.7, 0.0, 0.1)))
     world, disc = WorldPanorama(16), EyeDisc("left", size=8)

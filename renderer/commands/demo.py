@@ -20,7 +20,7 @@ def run(a) -> int:
     # deferred: library modules load when the command runs, so start-up stays light
     from ..demo import CAUTION, SITE, run_demo
 
-    from ..warmup import ensure
+    from ..warmup import ensure  # deferred: numba loads only for rendering
 
     display, method, seed = _common.display_from_args(a)
     # on a cold cache: say so, and compile in two processes (later runs load them)

@@ -181,7 +181,7 @@ def run(a) -> int:
     response = _common.response_from_args(a)
     _common.check_response_mean(response, a.product, "the response")
     scene = _common.scene_from_args(a, view.shape[1])
-    from ..warmup import ensure, names_for
+    from ..warmup import ensure, names_for  # deferred: numba loads only for rendering
 
     # on a cold cache: say so, and compile in two processes (later runs load them)
     ensure(names_for([view], None if scene is None else scene.image.shape,

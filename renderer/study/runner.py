@@ -25,6 +25,7 @@ from tqdm import tqdm
 from .. import budget
 from ..budget import check_jobs
 from ..errors import ConfigError, MagretinaError
+from ..warmup import ensure, names_for
 from ..inputs import image_size
 from ..io import check_png_encoder
 from . import exports, outputs
@@ -251,8 +252,6 @@ def _run(study, out_dir, jobs, executor, scheduler, dry, force, progress, stream
 
     # On a cold cache: say so and compile what the views need here, in two processes,
     # before any worker starts (workers would otherwise each compile the same kernels).
-    from ..warmup import ensure, names_for
-
     ensure([n for r in resources.values()
             for n in names_for(r.views.values(), getattr(getattr(r.scene, "image", None),
                                                          "shape", None), patterns=True)])
