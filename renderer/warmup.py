@@ -7,8 +7,8 @@ with no word said, and made every study worker compile the same kernels at once.
 :func:`ensure` checks cheaply whether the entry points' cache index files exist (the
 package's stamp check in :mod:`renderer.kernels._cache` has already removed stale ones
 at import), and if some are missing says so in one line, then compiles them on tiny
-inputs built by the real pipeline (so the types are exactly those of a real call) in two
-processes at once, this one and one child: on 2 cores that halves the wait.  Every later
+inputs built by the real pipeline (so the types are exactly those of a real call), in two
+processes at once (this one and one child) when a second core is idle.  Every later
 process (the command's own calls, study workers, the next command) loads them from the
 cache.  Not for: correctness (a kernel not warmed here still compiles on first use) or
 other numba code (spin dynamics, Fisher information).
@@ -125,6 +125,19 @@ def _split(names):
     return a, b, max(ca, cb)
 
 
+def _idle_core() -> bool:
+    """Whether a second core is free: two compiling processes repeat the row passes'
+    shared helpers (about a fifth more CPU in all), which only pays when the second
+    process gets a core of its own (bench/startup.py: on a busy 2-core machine one process
+    was faster)."""
+    n = os.cpu_count() or 1
+    try:
+        load = os.getloadavg()[0]
+    except OSError:
+        return False
+    return n >= 2 and load <= n - 1.5
+
+
 def ensure(names, stream=None, jobs=None) -> list[str]:
     """Compile the entry points of ``names`` that numba's cache lacks, saying so first.
 
@@ -135,7 +148,7 @@ def ensure(names, stream=None, jobs=None) -> list[str]:
     stream : file, optional
         Where the one-line notice goes (default stderr).
     jobs : int, optional
-        Processes to compile in (default 2 when there are 2 or more CPUs, else 1).
+        Processes to compile in (default 2 when a second core is idle, else 1).
 
     Returns
     -------
@@ -147,7 +160,7 @@ def ensure(names, stream=None, jobs=None) -> list[str]:
         return []
     stream = sys.stderr if stream is None else stream
     if jobs is None:
-        jobs = 2 if (os.cpu_count() or 1) >= 2 else 1
+        jobs = 2 if _idle_core() else 1
     here, there, cost = _split(need) if jobs >= 2 and len(need) > 1 else (need, [], 0)
     if not there:
         cost = sum(COST_S[n] for n in need)
