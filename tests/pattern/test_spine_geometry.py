@@ -106,7 +106,11 @@ def test_composite_kernels_match_twin():
     f = fixed(47.0, 63.0, -5.0)
     pose = Pose(33.0, -4.0, 2.0)
     scene = dusk(256)
-    for view in (WorldPanorama(256), HeadPanorama(128), EyeDisc("right", 64)):
+    # Plain bilinear reads: the twin below is the bilinear sampler (the footprint
+    # filters have their own twin checks in tests/views/test_antialias.py).
+    views = (WorldPanorama(256, filter="bilinear"), HeadPanorama(128, filter="bilinear"),
+             EyeDisc("right", 64, filter="bilinear"))
+    for view in views:
         img = renderer.render(f, pose, layout, RESP, view, scene=scene, gain=0.8, outside=0.3)
         inputs = pipeline.prepare(f, pose, layout, RESP)
         mean = pipeline.visual_field_mean(inputs)
