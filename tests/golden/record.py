@@ -1,4 +1,4 @@
-"""Re-record the golden digests (run from the repository root: python tests/golden/record.py).
+"""Re-record the golden outputs (run from the repository root: python tests/golden/record.py).
 
 Only for a change that alters outputs on purpose; say why in the same commit."""
 
@@ -14,9 +14,11 @@ os.environ.setdefault("MAGRETINA_CACHE", tempfile.mkdtemp(prefix="magretina-gold
 from cases import all_cases  # noqa: E402
 
 with tempfile.TemporaryDirectory() as tmp:
-    digests = all_cases(tmp)
-path = os.path.join(os.path.dirname(os.path.abspath(__file__)), "hashes.json")
-with open(path, "w", encoding="utf-8") as fh:
-    json.dump(digests, fh, indent=1, sort_keys=True)
+    records = all_cases(tmp)
+path = os.path.join(os.path.dirname(os.path.abspath(__file__)), "golden.json")
+tmp_path = path + ".tmp"
+with open(tmp_path, "w", encoding="utf-8") as fh:
+    json.dump(records, fh, indent=0, sort_keys=True)
     fh.write("\n")
-print(f"recorded {len(digests)} digests in {path}")
+os.replace(tmp_path, path)
+print(f"recorded {len(records)} outputs in {path}")
