@@ -32,16 +32,6 @@ import pytest
 ROOT = Path(__file__).resolve().parents[1]
 PACKAGE = ROOT / "renderer"
 
-#: Modules whose function-local imports are being removed by a change in progress
-#: (the kernels' new scene filtering reaches sibling kernel modules inside functions).
-#: Each entry must go with that change; the layer contract is still checked for them.
-PENDING = ("renderer.kernels",)
-
-#: Modules with a deferred third-party import still to be commented by their owners
-#: (the scipy spline import of the kernels' table builder, numba internals of their cache
-#: check).
-UNCOMMENTED = ("renderer.kernels.tables", "renderer.kernels._cache")
-
 #: The part of the package where deferring a library import is the point.
 DEFERRING = ("renderer.commands",)
 
@@ -124,7 +114,7 @@ def test_no_function_local_imports_of_the_package():
     bad = []
     for module, path, line, names, noted in _function_imports():
         own = [n for n in names if n == "renderer" or n.startswith("renderer.")]
-        if not own or (PENDING and module.startswith(PENDING)):
+        if not own:
             continue
         if module.startswith(DEFERRING) and noted:
             continue
@@ -138,7 +128,7 @@ def test_every_deferred_import_says_why():
     comment in that function, before or on the import line."""
     bad = [f"{path.relative_to(ROOT)}:{line} imports {', '.join(names)}"
            for module, path, line, names, noted in _function_imports()
-           if not noted and not module.startswith(PENDING + UNCOMMENTED)]
+           if not noted]
     assert not bad, "function-local imports without a '# deferred: why' comment:\n" + \
         "\n".join(bad)
 

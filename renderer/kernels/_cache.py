@@ -17,6 +17,13 @@ import hashlib
 import os
 import tempfile
 
+from numba.core import config
+
+try:  # numba's copy of appdirs (its user-wide cache location); internal, so optional
+    from numba.misc.appdirs import AppDirs
+except ImportError:  # pragma: no cover - depends on the numba version
+    AppDirs = None
+
 #: File name of the stamp, beside numba's index and data files.
 STAMP = "magretina-kernels.stamp"
 
@@ -46,8 +53,6 @@ def numba_cache_dir(pkg_dir):
     """The directory numba caches this package's functions in, as numba chooses it:
     ``NUMBA_CACHE_DIR``/<dir>_<sha1 of the package path> if set, else the package's
     ``__pycache__`` if writable, else the user-wide numba cache; None if none applies."""
-    from numba.core import config
-
     src = os.path.abspath(pkg_dir)
     sub = os.path.basename(src) + "_" + hashlib.sha1(src.encode()).hexdigest()
     if config.CACHE_DIR:
@@ -55,9 +60,7 @@ def numba_cache_dir(pkg_dir):
     in_tree = os.path.join(src, "__pycache__")
     if _writable(in_tree):
         return in_tree
-    try:
-        from numba.misc.appdirs import AppDirs
-    except ImportError:
+    if AppDirs is None:
         return None
     return os.path.join(AppDirs(appname="numba", appauthor=False).user_cache_dir, sub)
 

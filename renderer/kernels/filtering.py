@@ -145,6 +145,22 @@ def build_pyramid(image) -> Pyramid:
 # compiled helpers (inlined into the sampling kernels)
 # ---------------------------------------------------------------------------
 
+def pyramid_args(scene, pyramid, ntaps_max):
+    """The pyramid arrays the kernels with a footprint filter take (placeholders for the bilinear path), checked
+    against the scene they stand for."""
+    nt = int(ntaps_max) if pyramid is not None else 0
+    if nt <= 0:
+        return _NO_PYR_FLAT, _NO_PYR_LEVELS, _NO_PYR_SCALE, 0
+    if tuple(pyramid.shape) != tuple(scene.shape):
+        raise ValueError(f"the pyramid is of a {pyramid.shape} image, the scene is {scene.shape}")
+    return pyramid.flat, pyramid.levels, pyramid.scale, nt
+
+
+_NO_PYR_FLAT = np.zeros(1, np.float32)
+_NO_PYR_LEVELS = np.zeros((1, 3), np.int64)
+_NO_PYR_SCALE = np.ones(1)
+
+
 @njit(cache=True, inline="always", fastmath=FASTMATH, error_model="numpy")
 def _level_bilinear(flat, off, Hl, Wl, C, x, y, wt, acc):
     """Add ``wt`` × the bilinear read of one level at continuous level-l pixel coords

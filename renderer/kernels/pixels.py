@@ -18,7 +18,7 @@ from numba import njit, prange
 from .layout import (MODE_AXIAL, MODE_FULL_FIXED, MODE_RATIO, P_COS_IN, P_COS_OUT, P_COS_PSI,
                      P_CUBE, P_E2, P_FULL, P_LUT, P_MODE, P_Q, P_RB0, P_RB1, P_RB2, P_SIN_PSI,
                      _fold, _tables)
-from .filtering import _mip_pixel
+from .filtering import _mip_pixel, pyramid_args
 from .leaf import (FASTMATH, _cube_lookup, _inplane_field, _lut_lookup, _lut_row_lookup,
                    _molecular_xy, _ratio_cos, _visible)
 
@@ -264,10 +264,8 @@ def composite_dirs(scene, north_col, dirs, R_head_view, R_world_view, R_eye_head
     flattened row by row, rows of ``grid_width`` pixels: each pixel's footprint on the
     scene comes from the directions of its neighbours.
     """
-    from .sampling import _pyramid_args
-
     lut, cubes = _tables(eye_params, lut, cubes)
-    pf, pl, ps, nt = _pyramid_args(scene, pyramid, ntaps_max)
+    pf, pl, ps, nt = pyramid_args(scene, pyramid, ntaps_max)
     GW = 1 if grid_width is None else int(grid_width)
     if nt > 0 and (grid_width is None or dirs.shape[0] % GW):
         raise ValueError(f"the footprint filter needs the grid width of dirs ({dirs.shape[0]} "

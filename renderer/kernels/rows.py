@@ -5,6 +5,32 @@ tables (:mod:`renderer.kernels.tables`): block visibility decisions, the shared-
 fast path, per-eye passes in chunks, and the modulation of a world-aligned scene row.
 The notes below say how.  Not for: explicit direction arrays (:mod:`renderer.kernels.pixels`)
 or resampling a scene (:mod:`renderer.kernels.sampling`, which reuses the row signal).
+
+Row-pass notes.  :func:`_row_signal` computes one row:
+
+1. Visibility per eye and block of SUB = 64 columns (``_row_decide``, one vectorised loop
+   over the row's blocks): a cone test, then a Lipschitz bound on g = cos α − cos w(φ)
+   around the block's centre (``_fov_slope`` bounds |dw/dφ|).  Each run of blocks it
+   cannot settle gets one call of ``_block_pixels`` (the same test per pixel, cos w from
+   the polynomial ``_cos_sqrt``), and inside COS_MARGIN the exact ``_visible``, so the
+   masks equal the twin's (tests/kernels/test_rows.py).
+2. When every eye in use has the chief-ray geometry (q = 0, e2 = 1, axial mode, one
+   table row: :func:`_shared_group`), the signal is one value f(v·b) wherever any of
+   them sees (``_row_shared``).  Otherwise ``_row_general`` runs each eye over the runs
+   of blocks it sees, in chunks of EYE_CHUNK columns (``_eye_values``), and divides the
+   sums by the counts.  A new kernel mode adds its pass there in the same style: one
+   loop of selects only (no branches, no table reads) computing indices and fractions,
+   then a scalar loop doing the table reads into ``rb[RB_VAL]``.
+3. Response tables are read as (value, step) pairs (``_pair_tables``) at a continuous
+   index; cube tables are float32.
+4. ``_row_modulate3`` applies the factor in float32 (within one float32 rounding of the
+   twin's float64 product).
+5. Work items are blocks of ROW_BLOCK consecutive rows dealt to the threads round-robin
+   (:func:`_item_order`); the wrappers pass ``numba.get_num_threads()``, since reading
+   it inside a compiled function stops numba caching it.  Results do not depend on the
+   thread count (tested bitwise).
+6. Loop helpers carry ``error_model="numpy"`` and FASTMATH so that LLVM vectorises them;
+   what the measurements taught about keeping them vectorised is in bench/README.md.
 """
 
 from __future__ import annotations
@@ -742,13 +768,24 @@ def _shared_row(eye_params, shared):
 
 
 @njit(cache=True)
-def _row_setup(cos_az, sin_az, eye_params, shared, lut, pick):
+def _row_setup(H, cos_az, sin_az, eye_params, shared, lut, pick, nthreads):
     """Per-call inputs of the row passes: block bounds for SUB, the eyes'
     visibility constants, the eyes in use, whether they all share one value, the shared
-    table row, and the (value, step) table pairs."""
+    table row, the (value, step) table pairs, and the order of the ROW_BLOCK-row work
+    items of an H-row image for ``nthreads`` threads (:func:`_item_order`)."""
     active = _active(eye_params.shape[0], pick)
     return (_block_bounds(cos_az, sin_az, SUB), _eye_consts(eye_params), active,
-            _fast_path(active, shared), _shared_row(eye_params, shared), _pair_tables(lut))
+            _fast_path(active, shared), _shared_row(eye_params, shared), _pair_tables(lut),
+            _item_order((H + ROW_BLOCK - 1) // ROW_BLOCK, nthreads))
+
+
+@njit(cache=True, inline="always")
+def _row_buffers(E, W, nb):
+    """One work item's scratch for :func:`_row_signal` (E eyes, W columns, nb column
+    blocks): the float64 row buffer, the index rows, the per-eye block decisions and the
+    block kinds.  Inlined, so the parallel loop allocates them as it did when written out."""
+    return (np.empty((_NROW + E, W)), np.empty((2, W), dtype=np.int64), np.empty((E, nb)),
+            np.empty(nb))
 
 
 @njit(cache=True)
@@ -779,16 +816,10 @@ def _pattern_equirect(cos_el, sin_el, cos_az, sin_az, R_head_view, R_eye_view, e
     H = cos_el.shape[0]
     W = cos_az.shape[0]
     E = R_eye_view.shape[0]
-    bnd, kcs, active, fast, srow, pairs = _row_setup(cos_az, sin_az, eye_params, shared,
-                                                     lut, pick)
-    nb = bnd.shape[1]
-    nblk = (H + ROW_BLOCK - 1) // ROW_BLOCK
-    order = _item_order(nblk, nthreads)
-    for blk in prange(nblk):
-        rb = np.empty((_NROW + E, W))
-        ib = np.empty((2, W), dtype=np.int64)
-        dec = np.empty((E, nb))
-        kinds = np.empty(nb)
+    bnd, kcs, active, fast, srow, pairs, order = _row_setup(H, cos_az, sin_az, eye_params,
+                                                            shared, lut, pick, nthreads)
+    for blk in prange(order.shape[0]):
+        rb, ib, dec, kinds = _row_buffers(E, W, bnd.shape[1])
         r0 = order[blk] * ROW_BLOCK
         for i in range(r0, min(H, r0 + ROW_BLOCK)):
             _row_signal(cos_el[i], -sin_el[i], cos_az, sin_az, bnd, R_eye_view,
@@ -810,16 +841,10 @@ def _composite_world_aligned(scene, cos_el, sin_el, cos_az, sin_az, R_head_view,
     W = cos_az.shape[0]
     C = scene.shape[2]
     E = R_eye_view.shape[0]
-    bnd, kcs, active, fast, srow, pairs = _row_setup(cos_az, sin_az, eye_params, shared,
-                                                     lut, pick)
-    nb = bnd.shape[1]
-    nblk = (H + ROW_BLOCK - 1) // ROW_BLOCK
-    order = _item_order(nblk, nthreads)
-    for blk in prange(nblk):
-        rb = np.empty((_NROW + E, W))
-        ib = np.empty((2, W), dtype=np.int64)
-        dec = np.empty((E, nb))
-        kinds = np.empty(nb)
+    bnd, kcs, active, fast, srow, pairs, order = _row_setup(H, cos_az, sin_az, eye_params,
+                                                            shared, lut, pick, nthreads)
+    for blk in prange(order.shape[0]):
+        rb, ib, dec, kinds = _row_buffers(E, W, bnd.shape[1])
         sig = np.empty(W)
         r0 = order[blk] * ROW_BLOCK
         for i in range(r0, min(H, r0 + ROW_BLOCK)):

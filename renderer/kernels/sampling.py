@@ -14,11 +14,11 @@ import math
 import numpy as np
 from numba import get_num_threads, njit, prange
 
-from .filtering import SIMPLE_S1, _mip_pixel
+from .filtering import SIMPLE_S1, _mip_pixel, pyramid_args
 from .layout import _fold, _tables
 from .leaf import FASTMATH
 from .rows import (RB_A, RB_ACC, RB_B, RB_C, RB_E1, RB_E2, RB_FRAC, RB_UX, RB_UY, RB_UZ,
-                   RB_VAL, ROW_BLOCK, _NROW, _item_order, _row_setup, _row_signal,
+                   RB_VAL, ROW_BLOCK, _row_buffers, _row_setup, _row_signal,
                    _shared_group)
 
 
@@ -90,6 +90,22 @@ def _row_scene_coords(ce, vz, caz, saz, Q, north_col, SW, SH, X0, FX, Y0, FY):
         FY[j] = ys - y0
 
 
+@njit(cache=True, inline="always", fastmath=FASTMATH, error_model="numpy")
+def _bilinear_corners(X0, FX, Y0, FY, j, SW, SH, C):
+    """Flat offsets of the four source pixels of column ``j``'s bilinear read (coordinates
+    of :func:`_row_scene_coords`, x wrapping, y clamped) in a (SH·SW·C,) scene, and its
+    fractions (fx, fy).  Inlined into the scalar read loops."""
+    rowlen = SW * C
+    x0 = int(X0[j])
+    x1 = x0 + 1
+    x1 = 0 if x1 >= SW else x1
+    y0 = int(Y0[j])
+    y1 = y0 + 1
+    y1 = SH - 1 if y1 > SH - 1 else y1
+    return (y0 * rowlen + x0 * C, y0 * rowlen + x1 * C, y1 * rowlen + x0 * C,
+            y1 * rowlen + x1 * C, FX[j], FY[j])
+
+
 @njit(cache=True, fastmath=FASTMATH, error_model="numpy")
 def _row_sample_modulate(flat, SW, SH, C, X0, FX, Y0, FY, sig, inv_mean, gain, outside,
                          out_row):
@@ -97,22 +113,10 @@ def _row_sample_modulate(flat, SW, SH, C, X0, FX, Y0, FY, sig, inv_mean, gain, o
     coordinates of :func:`_row_scene_coords`, modulated as ``_modulate`` does, into one
     flattened (W·C,) output row.  Scalar (the reads), with flat offsets (a little
     faster here than three-index reads)."""
-    rowlen = SW * C
     for j in range(sig.shape[0]):
-        x0 = int(X0[j])
-        x1 = x0 + 1
-        x1 = 0 if x1 >= SW else x1
-        y0 = int(Y0[j])
-        y1 = y0 + 1
-        y1 = SH - 1 if y1 > SH - 1 else y1
-        fx = FX[j]
-        fy = FY[j]
+        o00, o01, o10, o11, fx, fy = _bilinear_corners(X0, FX, Y0, FY, j, SW, SH, C)
         gx = 1.0 - fx
         gy = 1.0 - fy
-        o00 = y0 * rowlen + x0 * C
-        o01 = y0 * rowlen + x1 * C
-        o10 = y1 * rowlen + x0 * C
-        o11 = y1 * rowlen + x1 * C
         s = sig[j]
         seen = s == s
         k = 1.0 + gain * (s * inv_mean - 1.0) if seen else outside
@@ -129,22 +133,10 @@ def _row_sample_modulate3(flat, SW, SH, X0, FX, Y0, FY, sig, inv_mean, gain, out
                           out_row):
     """:func:`_row_sample_modulate` for three channels, unrolled, with the modulation
     folded into the four bilinear weights (about a third faster here)."""
-    rowlen = SW * 3
     for j in range(sig.shape[0]):
-        x0 = int(X0[j])
-        x1 = x0 + 1
-        x1 = 0 if x1 >= SW else x1
-        y0 = int(Y0[j])
-        y1 = y0 + 1
-        y1 = SH - 1 if y1 > SH - 1 else y1
-        fx = FX[j]
-        fy = FY[j]
+        o00, o01, o10, o11, fx, fy = _bilinear_corners(X0, FX, Y0, FY, j, SW, SH, 3)
         gx = 1.0 - fx
         gy = 1.0 - fy
-        o00 = y0 * rowlen + x0 * 3
-        o01 = y0 * rowlen + x1 * 3
-        o10 = y1 * rowlen + x0 * 3
-        o11 = y1 * rowlen + x1 * 3
         s = sig[j]
         seen = s == s
         k = 1.0 + gain * (s * inv_mean - 1.0) if seen else outside
@@ -261,25 +253,13 @@ def _row_mip_modulate(flat, levels, scale, C, ntaps_max, X, Y, AX, AY, BX, BY, X
     them, without its footprint arithmetic).  Scalar (the reads)."""
     SH = levels[0, 1]
     SW = levels[0, 2]
-    rowlen = SW * C
     for j in range(sig.shape[0]):
         if SIMPLE[j] != 0.0:
-            x0 = int(X0[j])
-            x1 = x0 + 1
-            x1 = 0 if x1 >= SW else x1
-            y0 = int(Y0[j])
-            y1 = y0 + 1
-            y1 = SH - 1 if y1 > SH - 1 else y1
-            fx = FX[j]
-            fy = FY[j]
+            o00, o01, o10, o11, fx, fy = _bilinear_corners(X0, FX, Y0, FY, j, SW, SH, C)
             w00 = (1.0 - fx) * (1.0 - fy)
             w01 = fx * (1.0 - fy)
             w10 = (1.0 - fx) * fy
             w11 = fx * fy
-            o00 = y0 * rowlen + x0 * C
-            o01 = y0 * rowlen + x1 * C
-            o10 = y1 * rowlen + x0 * C
-            o11 = y1 * rowlen + x1 * C
             for c in range(C):
                 acc[c] = (flat[o00 + c] * w00 + flat[o01 + c] * w01 + flat[o10 + c] * w10
                           + flat[o11 + c] * w11)
@@ -318,16 +298,10 @@ def _composite_resampled(scene, north_col, cos_el, sin_el, cos_az, sin_az, R_hea
     E = R_eye_view.shape[0]
     Q = R_world_view
     flat = scene.reshape(-1)
-    bnd, kcs, active, fast, srow, pairs = _row_setup(cos_az, sin_az, eye_params, shared,
-                                                     lut, pick)
-    nb = bnd.shape[1]
-    nblk = (H + ROW_BLOCK - 1) // ROW_BLOCK
-    order = _item_order(nblk, nthreads)
-    for blk in prange(nblk):
-        rb = np.empty((_NROW + E, W))
-        ib = np.empty((2, W), dtype=np.int64)
-        dec = np.empty((E, nb))
-        kinds = np.empty(nb)
+    bnd, kcs, active, fast, srow, pairs, order = _row_setup(H, cos_az, sin_az, eye_params,
+                                                            shared, lut, pick, nthreads)
+    for blk in prange(order.shape[0]):
+        rb, ib, dec, kinds = _row_buffers(E, W, bnd.shape[1])
         sig = np.empty(W)
         acc = np.empty(C)
         r0 = order[blk] * ROW_BLOCK
@@ -377,25 +351,9 @@ def composite_resampled(scene, north_col, cos_el, sin_el, cos_az, sin_az, R_head
     # the kernel reads and writes flat arrays, which needs C-contiguous images
     scene = np.ascontiguousarray(scene)
     dest = out if out.flags.c_contiguous else np.empty(out.shape, out.dtype)
-    pf, pl, ps, nt = _pyramid_args(scene, pyramid, ntaps_max)
+    pf, pl, ps, nt = pyramid_args(scene, pyramid, ntaps_max)
     _composite_resampled(scene, north_col, cos_el, sin_el, cos_az, sin_az, R_head_view,
                          R_world_view, R_eye_view, eye_params, b_eye, shared, bv, lut, cubes,
                          pick, inv_mean, gain, outside, dest, get_num_threads(), pf, pl, ps, nt)
     if dest is not out:
         out[...] = dest
-
-
-def _pyramid_args(scene, pyramid, ntaps_max):
-    """The pyramid arrays the kernels take (placeholders for the bilinear path), checked
-    against the scene they stand for."""
-    nt = int(ntaps_max) if pyramid is not None else 0
-    if nt <= 0:
-        return _NO_PYR_FLAT, _NO_PYR_LEVELS, _NO_PYR_SCALE, 0
-    if tuple(pyramid.shape) != tuple(scene.shape):
-        raise ValueError(f"the pyramid is of a {pyramid.shape} image, the scene is {scene.shape}")
-    return pyramid.flat, pyramid.levels, pyramid.scale, nt
-
-
-_NO_PYR_FLAT = np.zeros(1, np.float32)
-_NO_PYR_LEVELS = np.zeros((1, 3), np.int64)
-_NO_PYR_SCALE = np.ones(1)

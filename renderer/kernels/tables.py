@@ -70,6 +70,8 @@ def cube_table(evaluate_dirs, n=257, n_sample=65):
     coarse = coarse.reshape(6, m, m)
     if m == n:
         return np.ascontiguousarray(coarse)
+    # deferred: scipy.interpolate is needed only to refine a coarser sample, and importing
+    # it costs start-up time of every process that loads the kernels
     from scipy.interpolate import RectBivariateSpline
 
     gc = np.linspace(-1.0, 1.0, m)

@@ -13,6 +13,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..frames import unit_vec_to_azel_rad
+from .filtering import LOD_SCALE, build_pyramid, ntaps_for
 from .layout import (MODE_AXIAL, MODE_FULL_FIXED, MODE_FULL_MERIDIAN, MODE_RATIO, P_COS_PSI,
                      P_CUBE, P_E2, P_FULL, P_LUT, P_MODE, P_NASAL, P_Q, P_RB0, P_RB1, P_RB2,
                      P_SIGN, P_SIN_PSI, P_VENTRAL, _tables)
@@ -237,16 +238,24 @@ def sample_equirect_numpy(scene, north_col, dirs_world):
     """Bilinear lookup of a 2:1 world panorama at world directions (N, 3) -> (N, C)."""
     SH, SW = scene.shape[:2]
     az, el = unit_vec_to_azel_rad(dirs_world)
-    xs = north_col + az * (SW / (2 * np.pi)) - 0.5
-    ys = np.clip((0.5 * np.pi - el) * (SH / np.pi) - 0.5, 0.0, SH - 1.0)
+    return _level_bilinear_numpy(scene, north_col + az * (SW / (2 * np.pi)),
+                                 (0.5 * np.pi - el) * (SH / np.pi))
+
+
+def _level_bilinear_numpy(level, x, y):
+    """Bilinear read of one pyramid level (or a whole scene) at continuous texel
+    coordinates (N,): x wraps, y is clamped, texel centres at half-integers."""
+    Hl, Wl = level.shape[:2]
+    xs = x - 0.5
+    ys = np.clip(y - 0.5, 0.0, Hl - 1.0)
     x0f = np.floor(xs)
     fx = (xs - x0f)[:, None]
-    x0 = x0f.astype(np.int64) % SW
-    x1 = (x0 + 1) % SW
-    y0 = np.minimum(ys.astype(np.int64), max(SH - 2, 0))
+    x0 = x0f.astype(np.int64) % Wl
+    x1 = (x0 + 1) % Wl
+    y0 = np.minimum(ys.astype(np.int64), max(Hl - 2, 0))
     fy = (ys - y0)[:, None]
-    y1 = np.minimum(y0 + 1, SH - 1)
-    s = scene.astype(np.float64)
+    y1 = np.minimum(y0 + 1, Hl - 1)
+    s = level.astype(np.float64)
     top = s[y0, x0] * (1 - fx) + s[y0, x1] * fx
     bot = s[y1, x0] * (1 - fx) + s[y1, x1] * fx
     return top * (1 - fy) + bot * fy
@@ -298,8 +307,7 @@ def scene_jacobian_numpy(north_col, SW, SH, dirs_world, dcol_world, drow_world):
     d = np.asarray(dirs_world, dtype=np.float64)
     kx = SW / (2 * np.pi)
     ky = SH / np.pi
-    az = np.arctan2(d[:, 1], d[:, 0])
-    el = np.arcsin(np.clip(-d[:, 2], -1.0, 1.0))
+    az, el = unit_vec_to_azel_rad(d)
     x = np.mod(north_col + az * kx, SW)
     y = (0.5 * np.pi - el) * ky
     rho2 = d[:, 0] ** 2 + d[:, 1] ** 2
@@ -316,28 +324,9 @@ def scene_jacobian_numpy(north_col, SW, SH, dirs_world, dcol_world, drow_world):
     return x, y, ax, ay, bx, by
 
 
-def _level_bilinear_numpy(level, x, y):
-    Hl, Wl = level.shape[:2]
-    xs = x - 0.5
-    ys = np.clip(y - 0.5, 0.0, Hl - 1.0)
-    x0f = np.floor(xs)
-    fx = (xs - x0f)[:, None]
-    x0 = x0f.astype(np.int64) % Wl
-    x1 = (x0 + 1) % Wl
-    y0 = np.minimum(ys.astype(np.int64), max(Hl - 2, 0))
-    fy = (ys - y0)[:, None]
-    y1 = np.minimum(y0 + 1, Hl - 1)
-    s = level.astype(np.float64)
-    top = s[y0, x0] * (1 - fx) + s[y0, x1] * fx
-    bot = s[y1, x0] * (1 - fx) + s[y1, x1] * fx
-    return top * (1 - fy) + bot * fy
-
-
 def sample_mipmap_numpy(pyramid, ntaps_max, x, y, ax, ay, bx, by):
     """NumPy twin of the footprint filter (``filtering._mip_pixel``): level-0 coords
     (N,) and Jacobian columns (N,) -> (N, C) float64."""
-    from .filtering import LOD_SCALE
-
     x, y, ax, ay, bx, by = (np.asarray(v, dtype=np.float64) for v in (x, y, ax, ay, bx, by))
     H0, W0, C = pyramid.shape
     p = ax * ax + bx * bx
@@ -389,8 +378,6 @@ def sample_filtered_numpy(scene, north_col, dirs_world, dcol_world, drow_world, 
                           pyramid=None):
     """Scene values at world directions (N, 3) under a named filter: the plain bilinear
     twin, or the footprint filter with the direction steps of one pixel (N, 3)."""
-    from .filtering import build_pyramid, ntaps_for
-
     if filter_name == "bilinear":
         return sample_equirect_numpy(scene, north_col, dirs_world)
     SH, SW = scene.shape[:2]
