@@ -19,7 +19,8 @@ def azel_to_vec(az_deg, el_deg) -> np.ndarray:
     Parameters
     ----------
     az_deg, el_deg : array_like
-        Azimuth (clockwise from x towards y) and elevation (positive up), degrees.
+        Azimuth (clockwise from x towards y) and elevation (positive up), degrees;
+        broadcast against each other.
 
     Returns
     -------
@@ -29,21 +30,44 @@ def azel_to_vec(az_deg, el_deg) -> np.ndarray:
     az = np.radians(np.asarray(az_deg, dtype=np.float64))
     el = np.radians(np.asarray(el_deg, dtype=np.float64))
     ce = np.cos(el)
-    return np.stack([ce * np.cos(az), ce * np.sin(az), -np.sin(el)], axis=-1)
+    return np.stack(np.broadcast_arrays(ce * np.cos(az), ce * np.sin(az), -np.sin(el)),
+                    axis=-1)
+
+
+def vec_to_azel_rad(v):
+    """Azimuth and elevation in radians of vectors of shape (..., 3) (need not be unit):
+    atan2(y, x) and atan2(−z, hypot(x, y)), accurate at every elevation (an arcsin or
+    arccos of a component loses digits near the poles and needs unit input).
+
+    Returns
+    -------
+    az_rad : ndarray, in [-π, π]
+    el_rad : ndarray, in [-π/2, π/2]
+    """
+    v = np.asarray(v, dtype=np.float64)
+    x, y, z = v[..., 0], v[..., 1], v[..., 2]
+    return np.arctan2(y, x), np.arctan2(-z, np.hypot(x, y))
 
 
 def vec_to_azel(v):
-    """Azimuth and elevation in degrees of vectors of shape (..., 3) (need not be unit).
+    """Azimuth and elevation in degrees of vectors of shape (..., 3) (need not be unit);
+    :func:`vec_to_azel_rad` in degrees.
 
     Returns
     -------
     az_deg : ndarray, in (-180, 180]
     el_deg : ndarray, in [-90, 90]
     """
-    v = np.asarray(v, dtype=np.float64)
-    x, y, z = v[..., 0], v[..., 1], v[..., 2]
-    az = np.degrees(np.arctan2(y, x))
-    el = np.degrees(np.arctan2(-z, np.hypot(x, y)))
+    az, el = vec_to_azel_rad(v)
+    return np.degrees(az), np.degrees(el)
+
+
+def equirect_centres_deg(width, height):
+    """Azimuth (W,) and elevation (H,) in degrees of the pixel centres of a W × H
+    equirectangular grid: column j at −180° + (j + ½)·360°/W, row i at
+    90° − (i + ½)·180°/H (azimuth left to right, elevation top to bottom)."""
+    az = -180.0 + (np.arange(width) + 0.5) * 360.0 / width
+    el = 90.0 - (np.arange(height) + 0.5) * 180.0 / height
     return az, el
 
 

@@ -16,6 +16,7 @@ import numpy as np
 
 from . import kernels, pipeline
 from .errors import MagretinaError
+from .frames import angle_between_deg
 from .io import atomic_path, atomic_write_bytes
 from .views import HeadPanorama, WorldPanorama
 
@@ -124,9 +125,8 @@ def plot_pattern(field, pose, layout, response, path, width=720, frame="head", p
     fig.colorbar(im, ax=ax, shrink=0.8, label="modulation m")
     if tot > 0:
         b_frame = b / tot if frame == "world" else pose.R_head_world @ (b / tot)
-        theta = np.degrees(np.arccos(np.clip(d @ b_frame, -1.0, 1.0)))
-        az = np.linspace(-180, 180, view.shape[1], endpoint=False) + 180.0 / view.shape[1]
-        el = 90 - (np.arange(view.shape[0]) + 0.5) * 180.0 / view.shape[0]
+        theta = angle_between_deg(d, b_frame)
+        az, el = view.pixel_azel()
         levels = np.arange(contour_step_deg, 180.0, contour_step_deg)
         cs = ax.contour(az, el, theta, levels=levels, colors="k", linewidths=0.6, alpha=0.7)
         ax.clabel(cs, fmt="%g°", fontsize=7)

@@ -15,6 +15,7 @@ import numpy as np
 from scipy.spatial.transform import Rotation
 
 from .errors import check_range
+from .frames import rotate
 
 
 @dataclass(frozen=True)
@@ -64,9 +65,9 @@ class Pose:
 
 def world_to_head(pose: Pose, v_world) -> np.ndarray:
     """Express world-frame vectors (..., 3) in the head frame."""
-    return np.asarray(v_world, float) @ pose.R_world_head
+    return rotate(pose.R_head_world, v_world)
 
 
 def head_to_world(pose: Pose, v_head) -> np.ndarray:
     """Express head-frame vectors (..., 3) in the world frame."""
-    return np.asarray(v_head, float) @ pose.R_head_world
+    return rotate(pose.R_world_head, v_head)

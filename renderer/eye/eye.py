@@ -21,6 +21,7 @@ import numpy as np
 from scipy.spatial.transform import Rotation
 
 from ..errors import MagretinaError, check_range
+from ..frames import angle_between_deg
 from ..kernels.twins import visible_numpy
 from . import optics
 from .alignment import parse_alignment
@@ -323,7 +324,7 @@ def field_angles_deg(eye: Eye, dirs_eye, b_eye) -> np.ndarray:
     """Angle θ (degrees) between each receptor axis and the field, for checks."""
     a = eye.receptor_axes(dirs_eye)
     b = np.asarray(b_eye, float) / max(np.linalg.norm(b_eye), 1e-300)
-    return np.degrees(np.arccos(np.clip(a @ b, -1.0, 1.0)))
+    return angle_between_deg(a, b)
 
 
 __all__ = ["Eye", "field_angles_deg"]

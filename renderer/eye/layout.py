@@ -19,6 +19,7 @@ from importlib import resources
 import numpy as np
 
 from ..errors import ConfigError, MagretinaError
+from ..frames import azel_to_vec
 from .eye import Eye
 from ..inputs import read_toml
 
@@ -110,10 +111,7 @@ class Layout:
         FieldBookkeeping
         """
         n = int(round(360.0 / float(step_deg)))
-        az = np.radians(-180.0 + (np.arange(n) + 0.5) * 360.0 / n)
-        el = np.radians(float(elevation_deg))
-        d = np.stack([np.cos(el) * np.cos(az), np.cos(el) * np.sin(az),
-                      np.full(n, -np.sin(el))], axis=1)
+        d = azel_to_vec(-180.0 + (np.arange(n) + 0.5) * 360.0 / n, float(elevation_deg))
         seen = np.stack([e.visible(d @ e.R_head_eye) for e in self.eyes])
         count = seen.sum(axis=0)
         w = 360.0 / n

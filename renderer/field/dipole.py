@@ -13,6 +13,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from ..frames import vec_to_azel
 from .base import FieldVector, SiteModel, check_igrf_date, check_site, decimal_year
 from .igrf import _ppigrf, coefficient_file
 
@@ -79,8 +80,9 @@ def dipole_pole(date) -> tuple[float, float]:
     """Geocentric latitude/longitude (degrees) of the north geomagnetic pole."""
     g10, g11, h11 = dipole_coefficients(date)
     m = -np.array([g11, h11, g10])  # the pole is where the field points straight down
-    m /= np.linalg.norm(m)
-    return float(np.degrees(np.arcsin(m[2]))), float(np.degrees(np.arctan2(m[1], m[0])))
+    # geocentric z points north: the frames' elevation is against +z down, so negate z
+    lon, lat = vec_to_azel(m * np.array([1.0, 1.0, -1.0]))
+    return float(lat), float(lon)
 
 
 def dipole(lat_deg, lon_deg, alt_km=0.0, date="2026-06-01") -> FieldVector:

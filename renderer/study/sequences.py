@@ -39,6 +39,7 @@ from dataclasses import dataclass, field, replace
 import numpy as np
 
 from ..errors import MagretinaError
+from ..frames import azel_to_vec, vec_to_azel_rad
 from ..spin.rf import RFField
 from .schema import REQUIRED, Key, check_table, resolve_path
 from ..inputs import read_csv_rows
@@ -310,13 +311,10 @@ def great_circle(lat1, lon1, lat2, lon2, fractions):
     lat_deg, lon_deg, azimuth_deg : (n,) each; azimuth clockwise from north in [0, 360).
     distance_m : float, the leg length on a sphere of radius EARTH_RADIUS_M.
     """
-    p1 = np.radians([lat1, lon1])
-    p2 = np.radians([lat2, lon2])
-
-    def vec(lat, lon):
-        return np.array([np.cos(lat) * np.cos(lon), np.cos(lat) * np.sin(lon), np.sin(lat)])
-
-    a, b = vec(*p1), vec(*p2)
+    # geocentric Earth-fixed vectors, z towards the north pole: the frames' direction
+    # helpers with their z (down) negated, longitude as azimuth and latitude as elevation
+    up = np.array([1.0, 1.0, -1.0])
+    a, b = azel_to_vec(lon1, lat1) * up, azel_to_vec(lon2, lat2) * up
     omega = math.atan2(np.linalg.norm(np.cross(a, b)), float(np.dot(a, b)))
     if omega < 1e-12:
         raise MagretinaError("sequence: route from and to are the same place")
@@ -324,8 +322,7 @@ def great_circle(lat1, lon1, lat2, lon2, fractions):
         raise MagretinaError("sequence: route ends are antipodal; the great circle is undefined")
     f = np.asarray(fractions, float)[:, None]
     pts = (np.sin((1 - f) * omega) * a + np.sin(f * omega) * b) / math.sin(omega)
-    lat = np.arctan2(pts[:, 2], np.hypot(pts[:, 0], pts[:, 1]))
-    lon = np.arctan2(pts[:, 1], pts[:, 0])
+    lon, lat = vec_to_azel_rad(pts * up)
     # Direction of motion: d(pts)/df, defined everywhere on the leg (ends included).
     vel = (-np.cos((1 - f) * omega) * a + np.cos(f * omega) * b)
     north = np.stack([-np.sin(lat) * np.cos(lon), -np.sin(lat) * np.sin(lon), np.cos(lat)], -1)

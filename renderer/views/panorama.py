@@ -14,6 +14,7 @@ from dataclasses import dataclass, replace
 import numpy as np
 
 from ..errors import MagretinaError
+from ..frames import equirect_centres_deg
 from ..kernels import equirect_dirs, equirect_tables
 from .base import DEFAULT_FILTER, View, check_sampling
 
@@ -65,9 +66,7 @@ class _Equirect(View):
     def pixel_azel(self):
         """(azimuth, elevation) in degrees of pixel centres, each shape (W,) and (H,)."""
         H, W = self.shape
-        az = -180.0 + (np.arange(W) + 0.5) * 360.0 / W
-        el = 90.0 - (np.arange(H) + 0.5) * 180.0 / H
-        return az, el
+        return equirect_centres_deg(W, H)
 
 
 @dataclass(frozen=True)
@@ -75,6 +74,7 @@ class WorldPanorama(_Equirect):
     """Equirectangular panorama in the world (NED) frame, width × width/2 pixels."""
 
     frame = "world"
+    example = {"width": 48}
 
 
 @dataclass(frozen=True)
@@ -82,3 +82,4 @@ class HeadPanorama(_Equirect):
     """Equirectangular panorama in the head frame (azimuth from the head's forward axis)."""
 
     frame = "head"
+    example = {"width": 48}
