@@ -41,8 +41,10 @@ def test_response_show_on_non_table_is_one_line(tmp_path, capsys):
 
 
 def test_presets_lists_every_kind(capsys):
-    """Every layout preset, response kind, radical-pair preset, scene kind and view appears."""
+    """Every layout preset, response kind, radical-pair preset, field model, scene kind and
+    view appears."""
     from renderer.eye.layout import preset_names
+    from renderer.field import MODELS as FIELD_MODELS
     from renderer.response import REGISTRY as RESPONSES
     from renderer.spin.definition import list_presets
     from renderer.views import REGISTRY as VIEWS
@@ -51,8 +53,8 @@ def test_presets_lists_every_kind(capsys):
     assert rc == 0, err
     lines = out.splitlines()
     names = {ln.split()[0] for ln in lines if ln.startswith("  ")}
-    for n in [*preset_names(), *RESPONSES, *list_presets(), *VIEWS, "dusk", "uniform", "file",
-              "igrf", "dipole"]:
+    for n in [*preset_names(), *RESPONSES, *list_presets(), *VIEWS, *FIELD_MODELS, "dusk",
+              "uniform", "file"]:
         assert n in names, n
     for ln in lines:
         if ln.startswith("  "):

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import json
 
+from ..field import MODELS
 from ..vocabulary import latlon_text
 from . import _common
 
@@ -19,7 +20,7 @@ def register(sub):
     p.add_argument("--alt-km", type=float, default=0.0, help="altitude above the WGS84 ellipsoid, km")
     p.add_argument("--date", default=None,
                    help="ISO 8601 date within 1900-01-01..2030-01-01 (default: today, UTC)")
-    p.add_argument("--model", default="igrf", help="field model: igrf | dipole")
+    p.add_argument("--model", default="igrf", help=f"field model: {' | '.join(MODELS)}")
     p.add_argument("--json", action="store_true", help="print JSON instead of a table")
     p.set_defaults(func=run)
 

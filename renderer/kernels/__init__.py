@@ -29,8 +29,8 @@ from . import _cache
 # cache entries compiled from other versions of this package's files
 _cache.invalidate_stale(os.path.dirname(os.path.abspath(__file__)))
 
-from .layout import (MODE_AXIAL, MODE_FULL_FIXED, MODE_FULL_MERIDIAN, MODE_RATIO, P_COS_IN,
-                     P_COS_OUT, P_COS_PSI, P_CUBE, P_DORSAL, P_E2, P_FULL, P_LUT, P_MODE,
+from .layout import (CUBE_MODES, KERNEL_MODES, MODE_AXIAL, MODE_FULL_FIXED, MODE_FULL_MERIDIAN,
+                     MODE_RATIO, P_COS_IN, P_COS_OUT, P_COS_PSI, P_CUBE, P_DORSAL, P_E2, P_FULL, P_LUT, P_MODE,
                      P_NASAL, P_Q, P_RB0, P_RB1, P_RB2, P_SIGN, P_SIN_PSI, P_TEMPORAL,
                      P_VENTRAL, PARAMS, pack_eyes)
 from .filtering import FILTERS, NTAPS_MAX, Pyramid, build_pyramid, ntaps_for
@@ -45,7 +45,7 @@ from .twins import (cube_lookup_numpy, grid_tangents_numpy, lut_lookup_numpy, mo
                     sample_mipmap_numpy, scene_jacobian_numpy, signal_numpy, visible_numpy)
 
 __all__ = [
-    "ATAN2_COEFFS", "ATAN_COEFFS", "ATAN_MARGIN", "COS_MARGIN", "COS_SQRT_COEFFS", "FASTMATH",
+    "ATAN2_COEFFS", "CUBE_MODES", "KERNEL_MODES", "ATAN_COEFFS", "ATAN_MARGIN", "COS_MARGIN", "COS_SQRT_COEFFS", "FASTMATH",
     "MODE_AXIAL", "MODE_FULL_FIXED", "MODE_FULL_MERIDIAN", "MODE_RATIO", "PARAMS", "P_COS_IN",
     "P_COS_OUT", "P_COS_PSI", "P_CUBE", "P_DORSAL", "P_E2", "P_FULL", "P_LUT", "P_MODE",
     "P_NASAL", "P_Q", "P_RB0", "P_RB1", "P_RB2", "P_SIGN", "P_SIN_PSI", "P_TEMPORAL",

@@ -7,10 +7,10 @@ For: the one definition of what a kernel knows about an eye.  :func:`pack_eyes` 
 * ``eye_params`` (E, PARAMS), slots named by the ``P_*`` constants: the base-axis
   geometry (q = d/R and e2 = (R/a)², with q = 0, e2 = 1 for the chief ray), the four
   half-widths (rad), nasal sign, full-sphere flag, cos of the smallest and largest
-  half-width (fast visibility), the alignment's kernel mode (``MODE_*``, the codes the
-  alignment classes of :mod:`renderer.eye.alignment` import from here), its
-  response-table row and cube index, and the mode's constants (ratio population B,
-  in-plane angle ψ).  Slots 18-19 are free.
+  half-width (fast visibility), the alignment's kernel mode (``MODE_*``, the codes of
+  :data:`KERNEL_MODES`, which the alignment classes of :mod:`renderer.eye.alignment`
+  import from here), its response-table row and cube index, and the mode's constants
+  (ratio population B, in-plane angle ψ).  Slots 18-19 are free.
 
 The tables the kernels read beside it are normalised by :func:`_tables`: ``lut`` (L,) or
 (K, L) receptor signal tables on ``linspace(-1, 1, L)`` of cos θ, eye e reading row
@@ -22,6 +22,7 @@ or files.
 from __future__ import annotations
 
 import math
+from typing import NamedTuple
 
 import numpy as np
 
@@ -33,7 +34,40 @@ P_RB0, P_RB1, P_RB2 = 11, 12, 13       # ratio: population B axis = RB0·a + RB1
 P_COS_PSI, P_SIN_PSI = 14, 15          # full frame: molecular x = cos ψ·e1 + sin ψ·e2
 P_COS_IN, P_COS_OUT = 16, 17           # cos(smallest), cos(largest) half-width
 
-MODE_AXIAL, MODE_RATIO, MODE_FULL_MERIDIAN, MODE_FULL_FIXED = 0, 1, 2, 3
+
+
+class KernelMode(NamedTuple):
+    """One per-pixel computation the kernels know: its code in ``eye_params[:, P_MODE]``,
+    whether it reads a full-frame cube table (else the cos θ table), and what it does."""
+
+    code: int
+    cube: bool
+    description: str
+
+
+#: The kernels' receptor modes, written once.  Adding one: a line here (the next code),
+#: its branch in the per-receptor signal (``pixels._frame_signal`` and ``_signal``, the
+#: row passes' ``rows._row_signal``, the twin ``twins.signal_numpy``, and the
+#: predictions' table kinds in ``predict.fisher.make_setup``), and an alignment class in
+#: :mod:`renderer.eye.alignment` whose ``mode`` is the code and whose ``examples`` reach
+#: it; tests/kernels/test_modes.py then checks the kernels against the twin for it.
+KERNEL_MODES = {
+    "axial": KernelMode(0, False, "one cos θ table lookup: θ between the receptor axis and "
+                                  "the field (normal, chief-ray, tilt, disorder, random "
+                                  "in-plane angle)"),
+    "ratio": KernelMode(1, False, "s_A/s_B of two populations, axes a and "
+                                  "RB0·a + RB1·e1 + RB2·e2"),
+    "full-meridian": KernelMode(2, True, "cube-table lookup of the field in a molecular frame, "
+                                         "x at ψ from the local meridian"),
+    "full-fixed": KernelMode(3, True, "cube-table lookup of the field in a molecular frame, "
+                                      "x at ψ from the eye's dorsal direction projected"),
+}
+MODE_AXIAL = KERNEL_MODES["axial"].code
+MODE_RATIO = KERNEL_MODES["ratio"].code
+MODE_FULL_MERIDIAN = KERNEL_MODES["full-meridian"].code
+MODE_FULL_FIXED = KERNEL_MODES["full-fixed"].code
+#: Codes of the modes that read a cube table.
+CUBE_MODES = tuple(m.code for m in KERNEL_MODES.values() if m.cube)
 
 _NO_CUBES = np.zeros((1, 6, 2, 2), np.float32)
 
@@ -89,7 +123,7 @@ def _tables(eye_params, lut, cubes):
         raise ValueError(f"eye_params ask for response-table rows up to {int(rows.max())} but "
                          f"lut has {lut.shape[0]} row(s); pass the stacked tables from "
                          f"pipeline.prepare (ShotInputs.lut)")
-    needs_cube = eye_params[:, P_MODE] >= MODE_FULL_MERIDIAN
+    needs_cube = np.isin(eye_params[:, P_MODE], CUBE_MODES)
     if cubes is None:
         if needs_cube.any():
             raise ValueError("a full-frame alignment needs its cube-map tables: pass "

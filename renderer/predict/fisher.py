@@ -32,6 +32,18 @@ evaluates the same model without tables or spectra (complex headings for complex
 steps where the response accepts them), :func:`fisher_finite_difference` differences
 it.  numba kernel for layouts whose eyes are all axial (the fast path), NumPy for the
 rest; this module does no plotting or I/O.
+
+Alignment hypotheses: :func:`make_setup` builds each eye's receptor signal with the maths
+of ``kernels.signal_numpy`` (receptor frames from ``kernels.receptor_frames_numpy``, so
+eye movements keep receptors on the retina) and gives each eye a kind from its kernel
+mode: ``KIND_AXIAL`` (normal, chief-ray, tilt, disorder, random in-plane angle: one
+Hermite table per distinct eye response; tilt and disorder as the rescaled Legendre
+series the renderer samples, other averaged tables through :class:`_TableAxial`),
+``KIND_RATIO`` (quotient rule on the same tables) and ``KIND_FRAME`` (full-frame
+meridian or fixed: the heading spectrum above).  A new kernel mode needs its kind here,
+with its signal and derivative in :func:`receptor_signals` and :func:`counts_direct`;
+tests/predict/test_alignment_modes.py builds every registered hypothesis from
+``renderer.eye.alignment.examples()``.
 """
 
 from __future__ import annotations

@@ -48,6 +48,9 @@ class View:
     pick = None
     filter = DEFAULT_FILTER
     supersample = 1
+    #: Constructor keywords of a small example (the view tests build every registered
+    #: view from these, see ``renderer.views.examples``).
+    example = {}
 
     def scaled(self, n):  # pragma: no cover - interface
         """The same view with n × n pixels for each of this one's (its pixel grid is the

@@ -38,6 +38,7 @@ class EyeDisc(View):
     filter: str = DEFAULT_FILTER
     supersample: int = 1
     frame = "head"
+    example = {"eye": "left", "size": 24}
 
     def __post_init__(self):
         check_sampling(self)

@@ -49,6 +49,7 @@ class PerspectiveScreen(View):
     pick: object = None
     filter: str = DEFAULT_FILTER
     supersample: int = 1
+    example = {"width": 32, "height": 20, "hfov_deg": 70.0}
 
     def __post_init__(self):
         check_sampling(self)

@@ -44,6 +44,7 @@ class RetinaView(View):
     filter: str = DEFAULT_FILTER
     supersample: int = 1
     frame = "head"
+    example = {"eye": "right", "size": 24}
 
     def __post_init__(self):
         check_sampling(self)

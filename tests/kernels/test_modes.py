@@ -6,7 +6,7 @@ import pytest
 from renderer import kernels, pipeline
 from renderer.kernels import leaf
 from renderer.eye import Eye, Layout, load_layout
-from renderer.eye.alignment import ChiefRay, Disorder, FullFrame, Normal, Ratio, Tilt
+from renderer.eye import alignment
 from renderer.field import fixed
 from renderer.pose import Pose
 from renderer.response import Legendre
@@ -26,16 +26,29 @@ class XYResponse:
         return Legendre([0.5 + 0.1 / 3, 0.0, -0.1 / 3])
 
 
-MODES = {
-    "normal": Normal(),
-    "chief-ray": ChiefRay(),
-    "tilt": Tilt(tilt_deg=35.0),
-    "disorder": Disorder(kappa=5.0),
-    "ratio": Ratio(delta_deg=60.0, chi_deg=20.0),
-    "full-meridian": FullFrame(in_plane="meridian", in_plane_deg=15.0),
-    "full-fixed": FullFrame(in_plane="fixed", in_plane_deg=-30.0),
-    "full-random": FullFrame(in_plane="random"),
-}
+#: Every registered alignment hypothesis at each of its example settings.
+MODES = alignment.examples()
+_NAMES = list(MODES)
+#: Layouts of two eyes, consecutive examples side by side (the last pairs with the first
+#: if their number is odd), with spherical and spheroidal retinas in turn; then one eye
+#: per kernel mode in a single layout.
+_AXIAL_MM = (None, 5.2, None, 6.8)
+COMBOS = [((_NAMES[i], _NAMES[(i + 1) % len(_NAMES)]), _AXIAL_MM[(i // 2) % len(_AXIAL_MM)])
+          for i in range(0, len(_NAMES), 2)]
+_FIRST = {}
+for _n, _a in MODES.items():
+    _FIRST.setdefault(_a.mode, _n)
+COMBOS.append((tuple(_FIRST.values()), 5.5))
+
+
+def test_every_kernel_mode_is_reached_by_an_example():
+    """The examples of the registered hypotheses reach every mode of the kernels' mode
+    table, and only those (so the twin checks below cover each kernel branch)."""
+    codes = {m.code for m in kernels.KERNEL_MODES.values()}
+    assert {a.mode for a in MODES.values()} == codes
+    assert len(codes) == len(kernels.KERNEL_MODES)
+    assert set(kernels.CUBE_MODES) == {m.code for m in kernels.KERNEL_MODES.values() if m.cube}
+    assert {type(a) for a in MODES.values()} == set(alignment.REGISTRY.values())
 
 
 def _layout(mode_names, axial_mm=None):
@@ -49,15 +62,14 @@ def _layout(mode_names, axial_mm=None):
     return Layout("t", tuple(eyes))
 
 
-@pytest.mark.parametrize("modes,axial_mm", [
-    (("normal", "chief-ray"), None), (("tilt", "disorder"), 5.2), (("ratio", "full-meridian"), None),
-    (("full-fixed", "full-random"), 6.8), (("ratio", "normal", "full-meridian"), 5.5)])
+@pytest.mark.parametrize("modes,axial_mm", COMBOS)
 @pytest.mark.parametrize("pick", [-1, 1])
 def test_kernels_agree_with_numpy_twin(modes, axial_mm, pick):
     """pattern_equirect, pattern_dirs and the three composite kernels against the twins
     (same maths, independent code) to 1e-6 (float32 images: 1e-6 absolute)."""
     lay = _layout(modes, axial_mm)
-    resp = XYResponse() if any(m.startswith("full") for m in modes) else Legendre([0.6, 0.0, 0.2, 0, 0.05])
+    full = any(MODES[m].needs_full_response() for m in modes)
+    resp = XYResponse() if full else Legendre([0.6, 0.0, 0.2, 0, 0.05])
     inp = pipeline.prepare(fixed(47.0, 61.0, -5.0), Pose(33.0, 8.0, -4.0), lay, resp)
     W, H = 96, 48
     tables = kernels.equirect_tables(W, H)

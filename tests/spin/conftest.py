@@ -3,7 +3,7 @@
 import numpy as np
 import pytest
 
-from renderer.spin import Nucleus, Radical, RadicalPair
+from renderer.spin import SOLVERS, Nucleus, Radical, RadicalPair, yields
 
 
 def random_tensor(rng, scale_mT=0.5):
@@ -27,3 +27,16 @@ def random_fields(rng, n, magnitude_T=50e-6):
 @pytest.fixture
 def rng():
     return np.random.default_rng(20261201)
+
+
+def all_methods(pair, fields):
+    """Yields from every *exact* solver that applies.  The spectral-convolution solver
+    (renderer.spin.large) carries a stated error bound instead and is checked against
+    the exact solvers within that bound in test_large.py and test_solver_dispatch.py."""
+    out = {}
+    for name, mod in SOLVERS.items():
+        if getattr(mod, "DEFAULT_TOL", 0.0) > 0.0:
+            continue
+        if mod.applicable(pair)[0]:
+            out[name] = yields(pair, fields, method=name)
+    return out

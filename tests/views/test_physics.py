@@ -7,12 +7,14 @@ import pytest
 
 import renderer
 from renderer.eye import load_layout
-from renderer.eye.alignment import ChiefRay, Disorder, FullFrame, Ratio, Tilt
+from renderer.eye.alignment import ChiefRay, FullFrame, Tilt
+from renderer.eye.alignment import examples as alignment_examples
 from renderer.field import fixed
 from renderer.field.base import FieldVector
 from renderer.pose import Pose
 from renderer.response import Legendre
-from renderer.views import EyeDisc, HeadPanorama, PerspectiveScreen, RetinaView, WorldPanorama
+from renderer.views import HeadPanorama, WorldPanorama
+from renderer.views import examples as view_examples
 
 
 class EvenXY:
@@ -38,13 +40,12 @@ def _lateral(d=1.5, alignment=None):
     return lay if alignment is None else lay.with_alignment(alignment)
 
 
-ALIGNMENTS = [None, ChiefRay(), Tilt(tilt_deg=40.0), Disorder(kappa=3.0), Ratio(delta_deg=50.0),
-              FullFrame(), FullFrame(in_plane="fixed", in_plane_deg=20.0)]
-VIEWS = [WorldPanorama(48), HeadPanorama(48), EyeDisc("left", 24), PerspectiveScreen(32, 20, 70.0),
-         RetinaView("right", 24)]
+#: Every registered alignment hypothesis (example settings) and every registered view.
+ALIGNMENTS = list(alignment_examples().values())
+VIEWS = list(view_examples().values())
 
 
-@pytest.mark.parametrize("alignment", ALIGNMENTS, ids=lambda a: "normal" if a is None else repr(a))
+@pytest.mark.parametrize("alignment", ALIGNMENTS, ids=repr)
 def test_field_reversal_leaves_every_view_unchanged(alignment):
     """A radical-pair yield is even in the field, so reversing B changes nothing in any view
     or alignment (the polarity-blind inclination compass of Wiltschko & Wiltschko 1972,

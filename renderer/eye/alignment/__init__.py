@@ -2,7 +2,9 @@
 
 ``REGISTRY`` maps the ``mode`` names used in layout files to classes; adding a
 hypothesis is one new file here and one line in the registry (plus, only if it needs
-new per-pixel work, a kernel mode in :mod:`renderer.kernels`).
+new per-pixel work, a kernel mode: a line in :data:`renderer.kernels.KERNEL_MODES` and
+its branch in the kernels).  :func:`examples` builds every registered hypothesis from
+its classes' ``examples`` settings; the tests iterate over it.
 """
 
 from __future__ import annotations
@@ -26,6 +28,16 @@ REGISTRY = {
     "ratio": Ratio,
     "full-frame": FullFrame,
 }
+
+
+def examples() -> dict:
+    """label -> Alignment: every registered hypothesis at each of its example settings
+    (``cls.examples``; a class without any contributes its defaults under its name)."""
+    out = {}
+    for name, cls in REGISTRY.items():
+        for label, kw in (cls.examples or {name: {}}).items():
+            out[label] = cls(**kw)
+    return out
 
 
 def parse_alignment(spec, where: str = "alignment") -> Alignment:
@@ -55,4 +67,4 @@ def parse_alignment(spec, where: str = "alignment") -> Alignment:
 
 
 __all__ = ["Alignment", "Normal", "ChiefRay", "Tilt", "Disorder", "Ratio", "FullFrame",
-           "REGISTRY", "AXES", "parse_alignment", "axial_response"]
+           "REGISTRY", "AXES", "examples", "parse_alignment", "axial_response"]

@@ -9,6 +9,15 @@ random in-plane angle: averages precomputed here, never per pixel) or asks the
 kernel for more per-pixel work (a ratio of two populations, a full molecular frame).
 Implementations are small frozen dataclasses, one per file, registered in
 ``renderer.eye.alignment.REGISTRY``.  This module does no rendering.
+
+Conventions: in-plane reference "meridian" puts molecular x along the local retinal
+meridian, away from the posterior pole (y = z × x along the parallel); "fixed" uses the
+projection of the eye's dorsal direction (−z of the eye frame), undefined where the axis
+is vertical in the eye.  Tilt and disorder applied to a *full* response first average it
+over its own in-plane angle; disorder with a fixed in-plane frame is not modelled.  A
+class's ``mode`` is a code of :data:`renderer.kernels.KERNEL_MODES` (default: axial), its
+``kernel_slots()`` fill that mode's ``eye_params`` constants, and its ``examples`` are the
+settings the tests build it with (:func:`renderer.eye.alignment.examples`).
 """
 
 from __future__ import annotations
@@ -63,6 +72,10 @@ class Alignment:
     axis: str = "normal"
     kind = "normal"
     mode = MODE_AXIAL
+    #: Example settings, label -> constructor keywords ({} means one example, the
+    #: defaults, labelled by ``kind``): the mode tests build every registered hypothesis
+    #: from these, so each kernel mode a class can ask for should be reached by one.
+    examples = {}
 
     def __post_init__(self):
         if self.axis not in AXES:

@@ -28,6 +28,7 @@ class Disorder(Alignment):
     kappa: float | None = None
     order_p2: float | None = None
     kind = "disorder"
+    examples = {"disorder": {"kappa": 5.0}}
 
     def __post_init__(self):
         super().__post_init__()

@@ -33,6 +33,9 @@ class FullFrame(Alignment):
     in_plane: str = "meridian"
     in_plane_deg: float = 0.0
     kind = "full-frame"
+    examples = {"full-meridian": {"in_plane": "meridian", "in_plane_deg": 15.0},
+                "full-fixed": {"in_plane": "fixed", "in_plane_deg": -30.0},
+                "full-random": {"in_plane": "random"}}
 
     def __post_init__(self):
         super().__post_init__()

@@ -25,6 +25,7 @@ class Ratio(Alignment):
     delta_deg: float = 90.0
     chi_deg: float = 0.0
     kind = "ratio"
+    examples = {"ratio": {"delta_deg": 60.0, "chi_deg": 20.0}}
     mode = MODE_RATIO
 
     def __post_init__(self):

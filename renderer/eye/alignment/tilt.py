@@ -28,6 +28,7 @@ class Tilt(Alignment):
 
     tilt_deg: float = 0.0
     kind = "tilt"
+    examples = {"tilt": {"tilt_deg": 35.0}}
 
     def __post_init__(self):
         super().__post_init__()
