@@ -63,8 +63,8 @@ from ..views import REGISTRY as VIEWS
 from . import sequences
 from .metrics import PROVIDERS
 from .orientation_config import check_orientation
-from .schema import (REQUIRED, Key, canonical_json, check_passthrough, check_table, check_value,
-                     resolve_path)
+from .schema import (REQUIRED, Key, canonical_json, check_even, check_names_in, check_passthrough,
+                     check_table, check_value, resolve_path)
 
 #: Site models of the field registry, and a fixed vector given in the file.
 FIELD_MODELS = (*SITE_MODELS, "fixed")
@@ -652,18 +652,11 @@ def _check_metrics(tbl, problems):
             if p not in PROVIDERS:
                 problems.append(f"metrics.providers[{i}] = {p!r}: allowed "
                                 f"{', '.join(map(repr, PROVIDERS))}")
-    w = m.get("grid_width")
-    if isinstance(w, int) and w % 2:
-        problems.append(f"metrics.grid_width = {w}: must be even")
-    opts = m.get("options", {})
-    if not isinstance(opts, dict):
-        problems.append("metrics.options: must be a table of [metrics.options.PROVIDER] tables")
-        opts = {}
-    for name in opts:
-        if name not in PROVIDERS:
-            problems.append(f"metrics.options.{name}: no such provider; allowed "
-                            f"{', '.join(map(repr, PROVIDERS))}")
-    m["options"] = copy.deepcopy(opts)
+    check_even("metrics.grid_width", m.get("grid_width"), problems)
+    m["options"] = copy.deepcopy(check_names_in(
+        "metrics.options", m.get("options", {}), PROVIDERS, problems,
+        shape="a table of [metrics.options.PROVIDER] tables", unknown="no such provider; allowed",
+        quote=True))
     return m
 
 

@@ -10,7 +10,7 @@ from __future__ import annotations
 from ..errors import MagretinaError
 from ..eye.alignment import parse_alignment
 from ..predict import OPTION_KEYS
-from .schema import REQUIRED, Key, check_table
+from .schema import REQUIRED, Key, check_even, check_named_tables, check_names_in, check_table
 from .sequences import STEP_KEYS, TIMELINE_ACTIONS
 
 ORIENTATION = {
@@ -39,31 +39,12 @@ def check_orientation(tbl, response_names, problems) -> dict:
         return {}
     out = check_table("orientation", tbl, ORIENTATION, problems,
                       extra_ok=("receptors", "condition", "hypothesis", "power"))
-    h = out.get("headings")
-    if isinstance(h, int) and h % 2:
-        problems.append(f"orientation.headings = {h}: must be even")
-    rec = out.get("receptors", {})
-    if not isinstance(rec, dict):
-        problems.append("orientation.receptors: must be a table")
-        rec = {}
-    for k in rec:
-        if k not in OPTION_KEYS:
-            problems.append(f"orientation.receptors.{k}: unknown key; allowed: "
-                            f"{', '.join(OPTION_KEYS)}")
-    out["receptors"] = dict(rec)
-    conds = out.get("condition", [])
-    if not isinstance(conds, list) or not conds:
-        problems.append("orientation.condition: give at least one [[orientation.condition]] "
-                        "(name, steps)")
-        conds = []
+    check_even("orientation.headings", out.get("headings"), problems)
+    out["receptors"] = check_names_in("orientation.receptors", out.get("receptors", {}),
+                                      OPTION_KEYS, problems)
     rc = []
-    names = set()
-    for i, c in enumerate(conds):
-        path = f"orientation.condition[{i}]"
-        cc = check_table(path, c, CONDITION, problems)
-        if cc.get("name") in names:
-            problems.append(f"{path}.name = {cc['name']!r}: used twice")
-        names.add(cc.get("name"))
+    for path, cc in check_named_tables("orientation.condition", out.get("condition", []),
+                                       CONDITION, problems, hint="name, steps"):
         steps = []
         for j, s in enumerate(cc.get("steps", []) or []):
             sp = f"{path}.steps[{j}]"
@@ -81,19 +62,9 @@ def check_orientation(tbl, response_names, problems) -> dict:
         cc["steps"] = steps
         rc.append(cc)
     out["condition"] = rc
-    hyps = out.get("hypothesis", [])
-    if not isinstance(hyps, list) or not hyps:
-        problems.append("orientation.hypothesis: give at least one [[orientation.hypothesis]] "
-                        "(name, response)")
-        hyps = []
     rh = []
-    hn = set()
-    for i, hh in enumerate(hyps):
-        path = f"orientation.hypothesis[{i}]"
-        x = check_table(path, hh, HYPOTHESIS, problems)
-        if x.get("name") in hn:
-            problems.append(f"{path}.name = {x['name']!r}: used twice")
-        hn.add(x.get("name"))
+    for path, x in check_named_tables("orientation.hypothesis", out.get("hypothesis", []),
+                                      HYPOTHESIS, problems, hint="name, response"):
         r = x.get("response")
         if r is not None and r != "default" and r not in response_names:
             problems.append(f"{path}.response = {r!r}: allowed 'default'"

@@ -153,6 +153,43 @@ def check_table(path, table, schema: dict, problems, *, extra_ok=()) -> dict:
     return out
 
 
+def check_even(path, value, problems):
+    """An integer ``value`` at ``path`` must be even (a 2:1 grid's width, a heading grid)."""
+    if isinstance(value, int) and value % 2:
+        problems.append(f"{path} = {value}: must be even")
+
+
+def check_names_in(path, table, allowed, problems, *, shape="a table",
+                   unknown="unknown key; allowed:", quote=False) -> dict:
+    """A sub-table whose keys must come from ``allowed`` (their values are checked
+    elsewhere); returns a shallow copy, or {} if it is not a table."""
+    if not isinstance(table, dict):
+        problems.append(f"{path}: must be {shape}")
+        return {}
+    listed = ", ".join(map(repr, allowed) if quote else allowed)
+    for k in table:
+        if k not in allowed:
+            problems.append(f"{path}.{k}: {unknown} {listed}")
+    return dict(table)
+
+
+def check_named_tables(path, items, schema, problems, *, hint):
+    """An array of tables ``[[path]]`` with a unique ``name`` each: at least one, each
+    checked against ``schema``.  Yields (its path, the checked table) per item, one at a
+    time, so the caller's own checks of an item report right after it; ``hint`` names
+    the keys a user should give."""
+    if not isinstance(items, list) or not items:
+        problems.append(f"{path}: give at least one [[{path}]] ({hint})")
+        return
+    names = set()
+    for i, item in enumerate(items):
+        where = f"{path}[{i}]"
+        checked = check_table(where, item, schema, problems)
+        if checked.get("name") in names:
+            problems.append(f"{where}.name = {checked['name']!r}: used twice")
+        names.add(checked.get("name"))
+        yield where, checked
+
 def init_fields(cls) -> dict:
     """Constructor keywords of ``cls``: name -> default (``REQUIRED`` if none).
 
