@@ -44,12 +44,23 @@ Yields (:mod:`.solvers`)::
 
     singlet_yield(pair, field_T (3,) | (N, 3), method="auto") -> float | (N,)
     yields(pair, field_T, method="auto") -> (phi_s, phi_t)
-    SOLVERS = {"separable": ..., "eigenbasis": ..., "liouville": ...}
+    SOLVERS = {"separable": ..., "eigenbasis": ..., "liouville": ..., "spectral": ...}
 
-Methods, all exact: ``separable`` (k_S = k_T, no exchange/dipolar; per-radical
-eigenbases), ``eigenbasis`` (k_S = k_T, any coupling; Timmel et al. 1998),
-``liouville`` (anything; Sylvester equation for the resolvent).  ``auto`` picks the
-first that applies.
+Methods: ``separable`` (k_S = k_T, no exchange/dipolar; per-radical eigenbases),
+``eigenbasis`` (k_S = k_T, any coupling; Timmel et al. 1998), ``liouville`` (anything;
+Sylvester equation for the resolvent), all exact; ``spectral`` (:mod:`.large`: the
+separable form by binned line spectra, error bound ``large.DEFAULT_TOL``), which
+``auto`` prefers to the direct separable sum above ``solvers.SPECTRAL_ABOVE``.  ``auto``
+otherwise picks the first exact method that applies.
+
+Beside the engine, none editing it: :mod:`.large` (equivalent-nucleus blocks, line
+spectra, the spectral method), :mod:`.montecarlo` (spin-coherent-state Monte Carlo,
+statistical), :mod:`.semiclassical` (Schulten–Wolynes, an approximation and labelled
+so), :mod:`.rf` (radio-frequency fields: Floquet, per-radical Floquet spectra, direct
+propagation), :mod:`.planner` (cost and memory estimates, ``plan()``, resumable
+per-direction runs; memory limit ``MAGRETINA_SPIN_MEMORY_GIB``, default 4 GiB).  Small
+dense eigenproblems run their LAPACK work on one BLAS thread (``threadpoolctl``) and
+parallelise over directions instead (measured: bench/README.md).
 
 Quantum limit (:mod:`.quantum`; a contract other scripts depend on)::
 
