@@ -6,6 +6,13 @@ the frame's x axis (north, or forward) towards its y axis (east, or right),
 elevation positive up (against +z, which points down).  Inside, unit vectors.
 This module holds only these conversions, not any rotation of a particular pose
 (see :mod:`renderer.pose`) or eye (see :mod:`renderer.eye`).
+
+Every NumPy conversion of the package goes through here.  The compiled kernels write
+the same conversions inline per pixel (``kernels.pixels``, ``kernels.sampling._atan2``,
+``kernels.tables.equirect_tables``): a numba loop cannot call these array functions per
+element without allocating, and the polynomial atan2 there keeps the loops vectorised;
+the kernels' NumPy twins (``kernels.twins``) use this module and the kernel-versus-twin
+tests hold the two together.
 """
 
 from __future__ import annotations
