@@ -9,7 +9,7 @@ from numpy.polynomial import legendre as npleg
 from renderer import kernels, pipeline
 from renderer.errors import MagretinaError
 from renderer.eye import Eye, Layout
-from renderer.eye.alignment import Tilt, examples
+from renderer.eye.alignment import Disorder, FullFrame, Normal, Ratio, Tilt, examples
 from renderer.field import fixed
 from renderer.mosaic import MosaicSpec, build_mosaic, explicit_mosaic
 from renderer.pose import Pose
