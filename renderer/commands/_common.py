@@ -404,6 +404,64 @@ def add_display_args(p):
     g.add_argument("--dither-seed", type=int, default=0, help="seed of the dither (default 0)")
 
 
+#: ``magretina run`` flags that replace a key of the study's [display] table (flag dest -> key)
+STUDY_DISPLAY_FLAGS = {"display": "kind", "gamma": "gamma", "display_table": "table",
+                       "black_cd_m2": "black_cd_m2", "white_cd_m2": "white_cd_m2",
+                       "bits": "bits", "dither": "dither", "dither_temporal": "temporal",
+                       "grey": "pattern_grey"}
+
+
+def add_study_display_args(p):
+    """The display flags of ``render`` for a study: each, when given, replaces that key of
+    the study file's [display] table (unset: the file's value)."""
+    g = p.add_argument_group("display and quantisation (each replaces that key of the study's "
+                             "[display] table)")
+    g.add_argument("--display", default=None, choices=("srgb", "gamma", "table"),
+                   help="display model (display.kind); another kind drops the file's curve "
+                        "keys (gamma, table, and black/white for a table)")
+    g.add_argument("--gamma", type=float, default=None,
+                   help="exponent of --display gamma, (0, 10] (display.gamma)")
+    g.add_argument("--display-table", default=None, metavar="CSV",
+                   help="measured table for --display table (display.table): CSV with header "
+                        "code,cd_m2 or code,red_cd_m2,green_cd_m2,blue_cd_m2; relative to the "
+                        "current folder")
+    g.add_argument("--black-cd-m2", type=float, default=None, metavar="CD_M2",
+                   help="luminance of code 0, cd/m² (srgb/gamma; display.black_cd_m2)")
+    g.add_argument("--white-cd-m2", type=float, default=None, metavar="CD_M2",
+                   help="luminance of full white, cd/m² (srgb/gamma; display.white_cd_m2)")
+    g.add_argument("--bits", type=int, default=None, choices=(8, 10, 16),
+                   help="display bit depth (display.bits)")
+    g.add_argument("--dither", default=None, choices=("none", "noise", "ordered"),
+                   help="quantiser (display.dither): none (round) | noise (noisy-bit) | "
+                        "ordered (Bayer); its seeds come from study.seed, per shot and frame")
+    g.add_argument("--dither-temporal", default=None, choices=("on", "off"),
+                   help="new dither noise every frame (on) or the same for all (off) "
+                        "(display.temporal)")
+    g.add_argument("--grey", default=None, metavar="LUMINANCE",
+                   help="background of the pattern stimulus and metrics (display.pattern_grey): "
+                        "relative 0..1, 'X cd/m2' or 'F white'")
+
+
+def study_display_overrides(a) -> dict:
+    """The [display] keys given by :func:`add_study_display_args` flags (others left out)."""
+    out = {}
+    for dest, key in STUDY_DISPLAY_FLAGS.items():
+        v = getattr(a, dest, None)
+        if v is None:
+            continue
+        if dest == "dither_temporal":
+            v = v == "on"
+        elif dest == "grey":
+            try:
+                v = float(v)
+            except ValueError:
+                pass
+        elif dest == "display_table":
+            v = os.path.abspath(v)
+        out[key] = v
+    return out
+
+
 def display_from_args(a):
     """The display model and quantiser of parsed arguments: (Display, method, seed)."""
     # deferred: library modules load when the command runs, so start-up stays light

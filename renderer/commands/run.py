@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from ..errors import MagretinaError
+from . import _common
 
 
 def register(sub):
@@ -29,6 +30,7 @@ def register(sub):
     p.add_argument("--png-encoder", choices=("fast", "small"), default=None,
                    help="PNG compression preset for this run instead of the study file's "
                         "output.png_encoder: fast (default) or small files; lossless either way")
+    _common.add_study_display_args(p)
     p.set_defaults(func=run)
 
 
@@ -44,7 +46,7 @@ def run(a) -> int:
     s = run_study(a.study, out_dir=a.out, jobs=a.jobs, executor=a.executor,
                   scheduler=a.scheduler, dry=a.dry_run, force=a.force, progress=not a.quiet,
                   max_memory_gb=a.max_memory_gb, force_jobs=a.force_jobs,
-                  png_encoder=a.png_encoder)
+                  png_encoder=a.png_encoder, display=_common.study_display_overrides(a))
     if a.dry_run:
         return 0
     if s["shots_rendered"] == 0:

@@ -46,7 +46,7 @@ import copy
 import datetime as _dt
 import hashlib
 import os
-from dataclasses import dataclass
+from dataclasses import dataclass, field as dc_field
 
 from ..budget import MAX_PIXELS, view_shape
 from ..defaults import DEFAULT_GAIN
@@ -186,6 +186,9 @@ class Study:
         The TOML as parsed.
     resolved : dict
         Every table with defaults filled in (the configuration that is run).
+    given : dict
+        Keys given on the command line instead of the file's, by table (``{"display":
+        {...}}``); already in ``raw`` and ``resolved``, kept to say where they came from.
     """
 
     path: str
@@ -193,6 +196,7 @@ class Study:
     sha256: str
     raw: dict
     resolved: dict
+    given: dict = dc_field(default_factory=dict)
 
     @property
     def config_sha256(self) -> str:
@@ -211,6 +215,37 @@ def config_digest(resolved) -> str:
         if isinstance(ident.get(table), dict) and key in ident[table]:
             ident[table] = {k: v for k, v in ident[table].items() if k != key}
     return hashlib.sha256(canonical_json(ident).encode()).hexdigest()
+
+
+#: keys of the curve a display kind takes; another kind given on the command line drops them
+_CURVE_KEYS = {"srgb": ("gamma", "table"), "gamma": ("table",),
+               "table": ("gamma", "black_cd_m2", "white_cd_m2")}
+
+
+def override_display(raw: dict, given: dict) -> dict:
+    """A copy of ``raw`` whose [display] table takes the keys in ``given`` (``magretina run``
+    flags).  A new ``kind`` drops the file's keys that belong to another curve (a gamma
+    exponent, a table, or a black/white level beside a measured table) unless they are given
+    too.  Nothing is checked here: :func:`validate` checks the result like the file's own keys."""
+    if not given:
+        return raw
+    d = raw.get("display", {})
+    d = dict(d) if isinstance(d, dict) else {}
+    if "kind" in given:
+        for k in _CURVE_KEYS.get(given["kind"], ()):
+            if k not in given:
+                d.pop(k, None)
+    d.update(given)
+    out = dict(raw)
+    out["display"] = d
+    return out
+
+
+def mark_given(problems: list, table: str, given: dict) -> list:
+    """Say which problems are about keys given on the command line, not in the file."""
+    keys = tuple(f"{table}.{k}" for k in given)
+    return [p + " (given on the command line)" if keys and p.startswith(keys) else p
+            for p in problems]
 
 
 def read_study(path) -> tuple[bytes, dict]:

@@ -34,7 +34,7 @@ import numpy as np
 from ..errors import ConfigError, MagretinaError
 from . import sequences
 from .build import build_view, field_function, resources_key
-from .config import Study, read_study, validate
+from .config import Study, mark_given, override_display, read_study, validate
 from .schema import canonical_json
 from ..budget import check_frame_count, frame_limit
 
@@ -252,19 +252,23 @@ def check_axis_values(study_raw, base_dir, axes, problems, known=(), base=None, 
                     problems.append(f"{path} (key {ax.key}) value {j} = {ax.labels[j]}: {p}")
 
 
-def load_study(path) -> Study:
+def load_study(path, display=None) -> Study:
     """Read and validate a study file; raises ConfigError listing every problem.
 
     Parameters
     ----------
     path : path-like
         The study TOML; relative paths inside it are resolved against its folder.
+    display : dict or None
+        Keys that replace the file's [display] keys (``magretina run --display ...``); the
+        result is validated like the file and is part of the configuration's identity.
 
     Returns
     -------
     Study
     """
     data, raw = read_study(path)
+    raw = override_display(raw, display or {})
     base = os.path.dirname(os.path.abspath(os.fspath(path)))
     problems = []
     resolved = validate(raw, base, problems)
@@ -275,8 +279,10 @@ def load_study(path) -> Study:
             # value once), so a long sweep over a broken study stays cheap to report.
             build_axes(raw, base, resolved["sweep"], problems, known=set(problems),
                        base=resolved, cache={})
-        raise ConfigError(problems, source=os.fspath(path))
-    return Study(os.fspath(path), base, hashlib.sha256(data).hexdigest(), raw, resolved)
+        raise ConfigError(mark_given(problems, "display", display or {}),
+                          source=os.fspath(path))
+    return Study(os.fspath(path), base, hashlib.sha256(data).hexdigest(), raw, resolved,
+                 {"display": dict(display)} if display else {})
 
 
 @dataclass(frozen=True)

@@ -356,6 +356,7 @@ def study_sidecar(plan, encodings) -> dict:
         "study_file_sha256": st.sha256,
         "config_sha256": st.config_sha256,
         "resolved_config": st.resolved,
+        **({"command_line": st.given} if st.given else {}),
         "input_files_sha256": input_files(st),
         "package_versions": package_versions(),
         "git_commit": git_commit(),

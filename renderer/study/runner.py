@@ -178,7 +178,7 @@ class _ShotState:
 
 def run_study(study_path, out_dir=None, jobs=1, executor="local", scheduler=None,
               dry=False, force=False, progress=True, stream=None, chunk_frames=None,
-              max_memory_gb=None, force_jobs=False, png_encoder=None) -> dict:
+              max_memory_gb=None, force_jobs=False, png_encoder=None, display=None) -> dict:
     """Run (or resume) a study into ``out_dir``; returns a summary dict.
 
     Parameters
@@ -193,6 +193,9 @@ def run_study(study_path, out_dir=None, jobs=1, executor="local", scheduler=None
     force_jobs : allow more workers than CPUs
     png_encoder : "fast" or "small" instead of the study file's ``output.png_encoder``
         (``--png-encoder``; compression only, the decoded pixels are the same)
+    display : dict or None, keys replacing the study file's [display] table (``--display``,
+        ``--bits``, ``--dither``...); part of the configuration's identity, so a folder made
+        with another display is another study
     """
     stream = stream or sys.stdout
     t0 = time.perf_counter()
@@ -201,7 +204,7 @@ def run_study(study_path, out_dir=None, jobs=1, executor="local", scheduler=None
         _check_out_dir(out_dir)
     if png_encoder is not None:
         check_png_encoder(png_encoder, "--png-encoder")
-    study = load_study(study_path)
+    study = load_study(study_path, display=display)
     started = None
     if not dry and executor == "local" and not scheduler and jobs > 1:
         # Workers spawn and import the library while this process plans; they get the

@@ -198,3 +198,68 @@ def test_study_figures_are_separate_from_stimuli(tmp_path):
         assert np.array_equal(a, iio.imread(plain / "frames/shot000" / name))
     listed = (out / "conditions.csv").read_text() + (out / "timing/shot000_world.csv").read_text()
     assert "figures/" not in listed
+
+
+def test_run_display_flags_replace_the_files_display(tmp_path, capsys):
+    """``magretina run --display gamma --gamma 2.2 --bits 10 --dither noise`` gives the
+    same frames, bit for bit, as a study file with those keys in [display] (the flags
+    replace the file's keys; the files' parameters, hence labels, are the same), and
+    study.json says which keys came from the command line.  The decoded 10-bit codes go
+    through the 2.2 power law (colour-science's gamma_function) to the displayed mean the
+    metrics report, as in the file-only test above."""
+    from renderer.cli import main
+
+    given = 'kind = "gamma"\ngamma = 2.2\nbits = 10\ndither = "noise"\n'
+    ref = tmp_path / "ref"
+    run_study(_study(tmp_path, given, "ref.toml"), str(ref), progress=False)
+    # The file says sRGB 8-bit with a white level; --display gamma keeps the white level
+    # (a gamma display has one) and the flags set the rest.
+    plain = _study(tmp_path, "white_cd_m2 = 80.0\n", "plain.toml")
+    out = tmp_path / "cli"
+    assert main(["run", plain, "--out", str(out), "--quiet", "--display", "gamma",
+                 "--gamma", "2.2", "--bits", "10", "--dither", "noise"]) == 0
+    for k in range(3):
+        pa = json.loads(texts(raw_chunks(ref / f"frames/shot000/world_{k:04d}.png"))
+                        ["magretina parameters"])
+        pb = json.loads(texts(raw_chunks(out / f"frames/shot000/world_{k:04d}.png"))
+                        ["magretina parameters"])
+        assert pb["display"] == pa["display"] and pb["dither"] == pa["dither"]
+        assert _read16(out / f"frames/shot000/world_{k:04d}.png").tobytes() == \
+            _read16(ref / f"frames/shot000/world_{k:04d}.png").tobytes()
+        assert dict(raw_chunks(out / f"frames/shot000/world_{k:04d}.png"))["sBIT"] == \
+            bytes([10, 10, 10])
+    side = json.loads((out / "study.json").read_text())
+    assert side["command_line"] == {"display": {"kind": "gamma", "gamma": 2.2, "bits": 10,
+                                                "dither": "noise"}}
+    assert side["resolved_config"]["display"]["kind"] == "gamma"
+    colour = pytest.importorskip("colour")
+    with open(out / "metrics.csv", newline="") as fh:
+        m = list(csv.DictReader(fh))
+    codes = _read16(out / "frames/shot000/world_0000.png").reshape(32, 64, 3) >> 6
+    rel = colour.gamma_function(codes / 1023.0, 2.2) @ np.array([0.2126, 0.7152, 0.0722])
+    assert float(m[0]["world_frame_mean_cd_m2_displayed"]) == pytest.approx(80.0 * rel.mean(),
+                                                                           rel=1e-12)
+    # Another display is another study: resuming the folder with the file's own display
+    # is refused, not mixed.
+    capsys.readouterr()
+    assert main(["run", plain, "--out", str(out), "--quiet"]) == 2
+    assert "another study" in capsys.readouterr().err
+
+
+def test_run_display_flag_errors_say_command_line(tmp_path, capsys):
+    """A bad value given as a flag is refused before anything renders, naming the key and
+    saying it came from the command line; a new kind drops the file's curve keys (a file
+    with a gamma exponent runs with --display srgb)."""
+    from renderer.cli import main
+
+    st = _study(tmp_path, 'kind = "gamma"\ngamma = 2.2\n')
+    out = tmp_path / "o"
+    assert main(["run", st, "--out", str(out), "--quiet", "--gamma", "20"]) == 2
+    err = capsys.readouterr().err
+    assert "display.gamma" in err and "(given on the command line)" in err
+    assert not out.exists()
+    assert main(["run", st, "--out", str(out), "--quiet", "--display", "srgb",
+                 "--dither-temporal", "off", "--dither", "ordered"]) == 0
+    side = json.loads((out / "study.json").read_text())
+    d = side["resolved_config"]["display"]
+    assert d["kind"] == "srgb" and d.get("gamma") is None and d["temporal"] is False
