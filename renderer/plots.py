@@ -18,6 +18,8 @@ from . import kernels, pipeline
 from .errors import MagretinaError
 from .frames import angle_between_deg
 from .io import atomic_path, atomic_write_bytes
+from .pngmeta import creation_time
+from .version import __version__
 from .views import HeadPanorama, WorldPanorama
 
 CAPTION = "model prediction, not a measurement"
@@ -33,9 +35,34 @@ def _figure(figsize, layout="constrained"):
     return fig
 
 
+def describe_figure(fig) -> str:
+    """What a figure shows, from its own text: titles and axis labels (with their units)."""
+    parts = []
+    sup = getattr(fig, "_suptitle", None)
+    if sup is not None and sup.get_text():
+        parts.append(sup.get_text())
+    for ax in fig.axes:
+        bits = [t for t in (ax.get_title(), ax.get_xlabel() and "x: " + ax.get_xlabel(),
+                            ax.get_ylabel() and "y: " + ax.get_ylabel()) if t]
+        if bits:
+            parts.append("; ".join(bits))
+    return " | ".join(" ".join(p.split()) for p in parts) or "figure"
+
+
+def png_metadata(fig) -> dict:
+    """PNG text chunks (the PNG specification's keywords) for a matplotlib figure: what
+    made it, what it shows, the model-prediction caution, the creation time."""
+    return {"Software": f"magretina {__version__} (matplotlib figure)",
+            "Description": describe_figure(fig),
+            "Source": "computed by magretina (a model, no camera or measurement)",
+            "Disclaimer": f"Figure of a {CAPTION}, under the stated hypothesis (receptor "
+                          f"response, alignment, gain); not a stimulus.",
+            "Creation Time": creation_time()}
+
+
 def _save(fig, path, dpi=100):
     buf = io.BytesIO()
-    fig.savefig(buf, format="png", dpi=dpi)
+    fig.savefig(buf, format="png", dpi=dpi, metadata=png_metadata(fig))
     return atomic_write_bytes(path, buf.getvalue())
 
 
@@ -305,7 +332,8 @@ def plot_spin_table(table, path, note=CAPTION):
     fig.tight_layout(rect=(0, 0.03, 1, 1))
     fmt = path.rsplit(".", 1)[-1] if "." in path.rsplit("/", 1)[-1] else "png"
     with atomic_path(path) as tmp:
-        fig.savefig(tmp, dpi=110, format=fmt)
+        fig.savefig(tmp, dpi=110, format=fmt,
+                    **({"metadata": png_metadata(fig)} if fmt == "png" else {}))
     return path
 
 

@@ -304,7 +304,8 @@ def run(a) -> int:
         img = render_noisy(field, pose, layout, response, view, build_mosaic(layout, spec), counts,
                            scene=_common.scene_from_args(a, a.width), seed=a.noisy_seed,
                            product=a.product)
-        write_png8_srgb(a.noisy, img)
+        write_png8_srgb(a.noisy, img, noisy_labels(a, field, pose, layout, response, view, spec,
+                                                   counts))
         plot_paths.append(a.noisy)
     if a.json:
         json.dump({"caution": CAUTION, "assumptions": assumptions, "metrics": metrics,
@@ -332,6 +333,34 @@ def run(a) -> int:
     for pth in plot_paths:
         print(pth)
     return 0
+
+
+def noisy_labels(a, field, pose, layout, response, view, spec, counts):
+    """PNG text chunks of the ``--noisy`` picture: what it shows, in which units, the
+    caution, and the parameters (mosaic, counts and noise, seed) that made it."""
+    # deferred: library modules load when the command runs, so start-up stays light
+    from ..pngmeta import label_chunks
+    from ..predict import CAUTION
+    from ..provenance import frame_params
+
+    c = counts.describe()
+    what = (f"one noisy realisation (seed {a.noisy_seed}) of the receptor signals: counts drawn "
+            f"from the {c.get('noise', a.noise)} noise model for {a.integration_ms:g} ms at "
+            f"{a.flux:g} absorptions/s per receptor at linear luminance 1, mean count "
+            f"flux·time·L·(1 + gain·(s/<s> - 1)), gain {a.gain:g}; every seen pixel is the "
+            f"scene colour times n/mu0 of its nearest receptor (mu0 its unmodulated mean "
+            f"count); world panorama (equirectangular, north at the centre column), heading "
+            f"{a.yaw_deg:g} deg; pixel values are linear scene luminance encoded as 8-bit "
+            f"sRGB (IEC 61966-2-1), rounded, no display model")
+    params = frame_params(field, pose, layout, response, view, a.gain, a.product,
+                          mosaic=spec.describe(), counts=c, noisy_seed=a.noisy_seed,
+                          scene=a.scene or "procedural dusk",
+                          encoding="8-bit sRGB of linear luminance, rounded",
+                          command="magretina predict --noisy")
+    return label_chunks(what, CAUTION, params,
+                        warning="one random draw of a noise model under the stated hypothesis; "
+                                "not a calibrated stimulus (use render or run with a display "
+                                "model for stimuli)")
 
 
 def _quantum_bound(a, field):

@@ -101,3 +101,34 @@ def test_predict_bad_input_exits_2_without_traceback(capsys, extra, words):
     assert "Traceback" not in err and err.startswith("magretina predict: error:")
     for w in words:
         assert w in err
+
+
+def test_predict_pictures_are_labelled(tmp_path):
+    """``predict --noisy`` and ``--plots`` PNGs say what they show (units, encoding), what
+    made them and that they are model predictions, in the PNG specification's text
+    keywords (W3C PNG 3rd edition, 2025, §11.3.4.2), read back with Pillow (not the
+    writer's code); the noisy picture also carries the sRGB chunk and the parameters JSON
+    with its mosaic, counts and seed."""
+    from PIL import Image
+
+    noisy = tmp_path / "noisy.png"
+    assert main(ARGS + ["--noisy", str(noisy), "--width", "64", "--flux", "300",
+                        "--noisy-seed", "7", "--plots", str(tmp_path)]) == 0
+    with Image.open(noisy) as im:
+        t = dict(im.text)
+        assert "srgb" in im.info
+    assert t["Software"].startswith("magretina ")
+    for words in (["noisy realisation", "seed 7", "300 absorptions/s", "8-bit sRGB",
+                   "linear scene luminance"],):
+        for w in words:
+            assert w in t["Description"], w
+    assert "not measurements" in t["Disclaimer"] and "not a calibrated stimulus" in t["Warning"]
+    assert "Creation Time" in t
+    p = json.loads(t["magretina parameters"])
+    assert p["noisy_seed"] == 7 and p["counts"]["flux_per_s"] == 300.0
+    assert p["mosaic"] and p["layout"] == "lateral" and p["command"].startswith("magretina")
+    for n in ("response.png", "pattern.png", "precision.png"):
+        with Image.open(tmp_path / n) as im:
+            t = dict(im.text)
+        assert t["Software"].startswith("magretina ") and "not a stimulus" in t["Disclaimer"]
+        assert "model prediction" in t["Description"] and "(deg" in t["Description"]
