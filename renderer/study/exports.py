@@ -26,11 +26,13 @@ from PIL import Image
 
 from ..errors import MagretinaError
 from ..io import atomic_path, atomic_write_bytes
+from ..version import __version__
 from .expand import snake
 from .outputs import CAUTION
 
 
-def write_video(path, frames_u8, fps, video="mp4", codec="libx264rgb", crf=18) -> str:
+def write_video(path, frames_u8, fps, video="mp4", codec="libx264rgb", crf=18,
+                label=None) -> str:
     """Encode an iterable of (H, W, 3) uint8 sRGB frames to a video file, atomically.
 
     Parameters
@@ -38,6 +40,7 @@ def write_video(path, frames_u8, fps, video="mp4", codec="libx264rgb", crf=18) -
     video : "mp4" (H.264 yuv420p, lossy, ``crf``) or "lossless" (``codec``
         libx264rgb at crf 0 in MP4, or ffv1 in Matroska)
     fps : float, playback frame rate
+    label : dict or None, container tags (``title``, ``comment``): what made the file
 
     Frames are never resized: a frame of odd width or height raises for yuv420p.
     """
@@ -55,10 +58,13 @@ def write_video(path, frames_u8, fps, video="mp4", codec="libx264rgb", crf=18) -
         fmt = "matroska"
     else:
         raise MagretinaError(f"video codec {codec!r}: allowed libx264rgb, ffv1")
+    tags = []
+    for k, v in (label or {}).items():
+        tags += ["-metadata", f"{k}={v}"]
     with atomic_path(path, ".mkv" if fmt == "matroska" else ".mp4") as tmp:
         w = iio2.get_writer(tmp, format="FFMPEG", mode="I", fps=float(fps), quality=None,
-                            macro_block_size=1, ffmpeg_log_level="error",
-                            input_params=None, ffmpeg_params=["-threads", "1", "-f", fmt], **kw)
+                            macro_block_size=1, ffmpeg_log_level="error", input_params=None,
+                            ffmpeg_params=["-threads", "1", *tags, "-f", fmt], **kw)
         shape = None
         try:
             for fr in frames_u8:
@@ -85,8 +91,11 @@ def read_video(path) -> np.ndarray:
         r.close()
 
 
-def preview_bytes(frames_u8, fps, kind="gif", max_width=256) -> bytes:
-    """Animated GIF or APNG bytes of the frames, downscaled by an integer factor."""
+def preview_bytes(frames_u8, fps, kind="gif", max_width=256, label=None) -> bytes:
+    """Animated GIF or APNG bytes of the frames, downscaled by an integer factor.
+
+    ``label`` (dict or None: ``title``, ``comment``) says what made the file: a GIF
+    comment extension, or PNG text chunks (Title, Description) in an APNG."""
     ims = []
     for fr in frames_u8:
         fr = np.asarray(fr, np.uint8)
@@ -96,13 +105,34 @@ def preview_bytes(frames_u8, fps, kind="gif", max_width=256) -> bytes:
         raise MagretinaError("preview: no frames")
     buf = io.BytesIO()
     duration = max(1, int(round(1000.0 / float(fps))))
+    label = label or {}
     if kind == "gif":
+        extra = {"comment": label_text(label).encode("utf-8")} if label else {}
         ims[0].save(buf, format="GIF", save_all=True, append_images=ims[1:], duration=duration,
-                    loop=0, optimize=False)
+                    loop=0, optimize=False, **extra)
     else:
+        from PIL import PngImagePlugin
+
+        info = PngImagePlugin.PngInfo()
+        for k, v in (("Title", label.get("title")), ("Description", label.get("comment"))):
+            if v:
+                info.add_text(k, v)
         ims[0].save(buf, format="PNG", save_all=True, append_images=ims[1:], duration=duration,
-                    loop=0, default_image=False)
+                    loop=0, default_image=False, pnginfo=info)
     return buf.getvalue()
+
+
+def shot_label(plan, shot, view, what) -> dict:
+    """Tags of a shot's preview or video: what it is, the study, its hash, the caution."""
+
+    name = plan.study.resolved["study"]["name"]
+    return {"title": f"{what} of study {name}, shot {shot.shot_id}, view {view}",
+            "comment": f"made by magretina {__version__} from the study's 8-bit frames; "
+                       f"config_sha256 {plan.study.config_sha256}. {CAUTION}"}
+
+
+def label_text(label) -> str:
+    return " | ".join(str(v) for v in label.values() if v)
 
 
 def csv_header(names) -> list[str]:

@@ -83,12 +83,13 @@ def expected_files(plan, shot):
         if o["preview"] != "none":
             items.append({"kind": o["preview"], "view": v, "frames": frames8, "fps": fps,
                           "max_width": o["preview_width"], "encoding": o["preview"],
+                          "label": exports.shot_label(plan, shot, v, "preview"),
                           "path": outputs.preview_name(shot.shot_id, v, o["preview"])})
         if o["video"] != "none":
             enc = "mp4" if o["video"] == "mp4" else "lossless-" + o["lossless_codec"]
             items.append({"kind": "video", "view": v, "frames": frames8, "fps": fps,
                           "video": o["video"], "codec": o["lossless_codec"], "crf": o["crf"],
-                          "encoding": enc,
+                          "encoding": enc, "label": exports.shot_label(plan, shot, v, "video"),
                           "path": outputs.video_name(shot.shot_id, v, o["video"],
                                                      o["lossless_codec"])})
     return per_frame, items

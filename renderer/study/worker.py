@@ -291,11 +291,13 @@ def finish_shot(task: dict, resources=None) -> dict:
         frames = (iio.imread(os.path.join(out_dir, p)) for p in item["frames"])
         path = os.path.join(out_dir, item["path"])
         if item["kind"] in ("gif", "apng"):
-            data = preview_bytes(frames, item["fps"], item["kind"], item["max_width"])
+            data = preview_bytes(frames, item["fps"], item["kind"], item["max_width"],
+                                 item.get("label"))
             atomic_write_bytes(path, data)
             sha, size = sha256_bytes(data), len(data)
         else:
-            write_video(path, frames, item["fps"], item["video"], item["codec"], item["crf"])
+            write_video(path, frames, item["fps"], item["video"], item["codec"], item["crf"],
+                        item.get("label"))
             sha, size = sha256_file(path), os.path.getsize(path)
         records.append({"path": item["path"], "sha256": sha, "bytes": size, "frame": None,
                         "view": item["view"], "encoding": item["encoding"]})

@@ -127,6 +127,14 @@ name = "codec"
         np.testing.assert_array_equal(vid, frames)
         gif = Image.open(os.path.join(out, f"previews/{shot}_world.gif"))
         assert gif.n_frames == 4 and gif.size == (36, 18)
+        # Each file says what made it: a GIF comment (read by Pillow) and container tags
+        # (read by ffmpeg's own ffmetadata output, not by the writer's code).
+        side = json.load(open(os.path.join(out, "study.json")))
+        assert side["config_sha256"] in gif.info["comment"].decode()
+        assert b"not measurements" in gif.info["comment"]
+        tags = _ffmetadata(os.path.join(out, f"video/{shot}_world.{ext}"))
+        assert f"video of study video, shot {shot}, view world" in tags.get("title", "")
+        assert side["config_sha256"] in tags.get("comment", "")
     lossy = text.replace('video = "lossless"', 'video = "mp4"').split("[[sweep.axis]]")[0]
     out2 = str(tmp_path / "lossy")
     run_study(write(tmp_path, lossy, "lossy.toml"), out2, progress=False)
@@ -259,3 +267,35 @@ steps = [
     side = json.load(open(os.path.join(out, "study.json")))
     rf = side["resolved_config"]["timeline"]["steps"][0]["rf"]
     assert rf["frequency_Hz"] == pytest.approx(1.4e6) and rf["amplitude_T"] == pytest.approx(150e-9)
+
+
+def _ffmetadata(path) -> dict:
+    """Container tags of a media file, as ffmpeg's ffmetadata muxer prints them."""
+    import subprocess
+
+    import imageio_ffmpeg
+
+    r = subprocess.run([imageio_ffmpeg.get_ffmpeg_exe(), "-v", "error", "-i", path, "-f",
+                        "ffmetadata", "-"], capture_output=True, text=True, check=True)
+    tags = {}
+    for line in r.stdout.splitlines():
+        if "=" in line and not line.startswith(";"):
+            k, v = line.split("=", 1)
+            tags[k.lower()] = v
+    return tags
+
+
+def test_apng_preview_carries_text_chunks():
+    """An APNG preview's Title and Description (PNG text keywords, W3C PNG 3rd edition
+    §11.3.4.2) read back by Pillow."""
+    import io
+
+    from renderer.study.exports import preview_bytes
+
+    frames = [np.full((8, 16, 3), k * 40, np.uint8) for k in range(3)]
+    data = preview_bytes(frames, 5.0, "apng", 16, {"title": "preview of study s",
+                                                   "comment": "config_sha256 abc"})
+    with Image.open(io.BytesIO(data)) as im:
+        assert im.n_frames == 3
+        assert im.text["Title"] == "preview of study s"
+        assert im.text["Description"] == "config_sha256 abc"
