@@ -12,7 +12,7 @@ This module does no file I/O.
 from __future__ import annotations
 
 import weakref
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
@@ -20,6 +20,7 @@ from . import kernels
 from .defaults import DEFAULT_GAIN
 from .errors import MagretinaError
 from .eye.alignment import Normal
+from .eye.alignment.base import Alignment
 from .response.base import LUT_SIZE, PRODUCTS
 from .scene import Scene, dusk
 from .views.panorama import HeadPanorama
@@ -48,11 +49,27 @@ class ShotInputs:
     b_head_unit: np.ndarray
     total_T: float
     cubes: np.ndarray | None = None
+    #: A lab-fixed RF response (:class:`LabInputs`), evaluated per pixel in NumPy instead
+    #: of through ``lut``/``cubes`` (which then hold a flat placeholder); None otherwise.
+    lab: "LabInputs | None" = None
 
     @property
     def luts(self) -> np.ndarray:
         """The response tables as a stack, shape (K, L)."""
         return self.lut if self.lut.ndim == 2 else self.lut[None, :]
+
+
+@dataclass(frozen=True)
+class LabInputs:
+    """What a lab-fixed RF response needs per frame: the table, the RF coil's direction in
+    each eye's frame (E, 3), how each eye reads it ("full": the molecular frame of a
+    full-frame alignment; "in-plane average": the mean over the in-plane angle about the
+    receptor axis) and the product."""
+
+    response: object
+    rf_eye: np.ndarray
+    modes: tuple
+    product: str
 
 
 #: Side of the cube-map faces for full-frame responses (see kernels.cube_table).
@@ -121,9 +138,17 @@ def prepare(field, pose, layout, response, product="singlet", eye_offsets=None) 
 
     With a zero field the receptors have no direction to respond to; they then all
     give the response's spherical mean (no pattern; a ratio channel gives 1).
+
+    A lab-fixed RF response (``response.lab_rf``, see
+    :class:`renderer.response.LabRFResponse`) is read per pixel from the static and the
+    RF direction in each receptor's frame (``inputs.lab``); its eyes must have a
+    full-frame alignment or one that averages over the in-plane angle (normal,
+    chief-ray, full-frame with a random in-plane angle).
     """
     if eye_offsets:
         layout = layout.moved(eye_offsets)
+    if getattr(response, "lab_rf", False):
+        return _prepare_lab(field, pose, layout, response, product)
     luts, rows = [], []
     cubes, cube_rows = [], []
     for eye in layout.eyes:
@@ -168,6 +193,113 @@ def prepare(field, pose, layout, response, product="singlet", eye_offsets=None) 
                       cube_stack)
 
 
+class _Flat:
+    """Placeholder response of the kernel inputs of a lab-fixed RF frame: signal 1 for
+    every direction (axial table and full-frame cube alike)."""
+
+    axial = True
+
+    def __call__(self, cos_theta):
+        return np.ones_like(np.asarray(cos_theta, dtype=np.float64))
+
+    def lut(self, n=LUT_SIZE):
+        return np.ones(int(n))
+
+    def evaluate_dirs(self, dirs):
+        return np.ones(np.asarray(dirs).shape[0])
+
+
+_FLAT = _Flat()
+
+
+def _prepare_lab(field, pose, layout, response, product) -> ShotInputs:
+    _check_product(product)
+    modes = []
+    for eye in layout.eyes:
+        al = eye.alignment
+        if al.needs_full_response():
+            modes.append("full")
+        elif al.mode == kernels.MODE_AXIAL and type(al).axial_lut is Alignment.axial_lut:
+            modes.append("in-plane average")
+        else:
+            raise MagretinaError(f"eye {eye.name!r}: alignment {al.kind!r} cannot read a "
+                                 f"lab-fixed RF table (it needs each receptor's frame); use "
+                                 f"normal, chief-ray or full-frame")
+    if response.rf_ned is None:
+        raise MagretinaError("lab-fixed RF table: no RF direction for this frame (give the "
+                             "rf-on step that selects it a direction = [north, east, down])")
+    base = prepare(field, pose, layout, _FLAT, "singlet")
+    if base.total_T == 0.0:
+        raise MagretinaError("lab-fixed RF table: the static field is zero, so its direction "
+                             "in the receptor frame is undefined")
+    rf_head = base.R_head_world @ np.asarray(response.rf_ned, float)
+    rf_eye = np.einsum("eij,j->ei", base.R_eye_head, rf_head)
+    return replace(base, lab=LabInputs(response, rf_eye, tuple(modes), product))
+
+
+def lab_signal(inputs: ShotInputs, dirs_head, pick=-1) -> np.ndarray:
+    """The signal of a lab-fixed RF response at head-frame directions (N, 3) -> (N,).
+
+    For each eye (or the picked one) that sees a direction: the receptor's base axis and
+    in-plane frame (:func:`renderer.kernels.receptor_frames_numpy`, the axes the kernels
+    use), the molecular axes of its alignment (:func:`renderer.kernels.mode_axes_numpy`),
+    the static and the RF direction on them, and Φ_S of the table there; an eye whose
+    alignment averages over the in-plane angle takes the mean over K = L₀ + L₁ + 2
+    equally spaced angles (exact for the expansion, whose in-plane Fourier orders are at
+    most L₀ + L₁).  Eyes that see the same direction are averaged, as in the kernels.
+    NaN where no eye sees (or the direction is NaN).
+    """
+    lab = inputs.lab
+    table = lab.response.table
+    d = np.asarray(dirs_head, dtype=np.float64).reshape(-1, 3)
+    ok = np.all(np.isfinite(d), axis=1)
+    acc = np.zeros(d.shape[0])
+    cnt = np.zeros(d.shape[0])
+    n_psi = table.lmax_static + table.lmax_rf + 2
+    for e in range(inputs.R_eye_head.shape[0]):
+        if pick >= 0 and e != pick:
+            continue
+        p = inputs.eye_params[e]
+        u = np.where(ok[:, None], d, 0.0) @ inputs.R_eye_head[e].T
+        vis = ok.copy()
+        if p[kernels.P_FULL] == 0.0:
+            vis &= kernels.visible_numpy(u, p[kernels.P_NASAL:kernels.P_VENTRAL + 1],
+                                         p[kernels.P_SIGN])
+        if not vis.any():
+            continue
+        a, e1, e2 = kernels.receptor_frames_numpy(u[vis], p)
+        b, r = inputs.b_eye[e], lab.rf_eye[e]
+        if lab.modes[e] == "full":
+            x, y, z = kernels.mode_axes_numpy(p, a, e1, e2)
+            frames = [(x, y, z)]
+        else:
+            frames = []
+            for k in range(n_psi):
+                c, s_ = np.cos(2 * np.pi * k / n_psi), np.sin(2 * np.pi * k / n_psi)
+                frames.append((c * e1 + s_ * e2, c * e2 - s_ * e1, a))
+        val = np.zeros(a.shape[0])
+        for x, y, z in frames:
+            b_mol = np.stack([x @ b, y @ b, z @ b], axis=1)
+            r_mol = np.stack([x @ r, y @ r, z @ r], axis=1)
+            val += table.evaluate(b_mol, r_mol)
+        val /= len(frames)
+        if lab.product == "triplet":
+            val = 1.0 - val
+        acc[vis] += val
+        cnt[vis] += 1
+    with np.errstate(invalid="ignore"):
+        return np.where(cnt > 0, acc / np.maximum(cnt, 1), np.nan)
+
+
+def _lab_map(inputs, view, layout, dirs_view=None):
+    """:func:`lab_signal` over a view, (H, W)."""
+    H, W = view.shape
+    M = _R_head_view(view, inputs)
+    d = view.directions(layout) if dirs_view is None else dirs_view
+    return lab_signal(inputs, np.asarray(d, float).reshape(-1, 3) @ M.T,
+                      _pick(view, layout)).reshape(H, W)
+
+
 def _R_head_view(view, inputs: ShotInputs):
     if view.frame == "world":
         return inputs.R_head_world
@@ -198,6 +330,8 @@ def signal_map(inputs, view, layout, lut=None) -> np.ndarray:
     ndarray, (H, W) float64
         NaN where no eye sees (as :func:`render_pattern`).
     """
+    if inputs.lab is not None:
+        return _lab_map(inputs, view, layout)
     lut = inputs.lut if lut is None else lut
     H, W = view.shape
     M = np.ascontiguousarray(_R_head_view(view, inputs))
@@ -217,9 +351,12 @@ def signal_map(inputs, view, layout, lut=None) -> np.ndarray:
 def visual_field_mean(inputs: ShotInputs, width=MEAN_GRID_WIDTH) -> float:
     """Solid-angle-weighted mean signal over every direction some eye sees."""
     view = HeadPanorama(width)
-    s = np.empty(view.shape)
-    kernels.pattern_equirect(*view.tables(), np.eye(3), inputs.R_eye_head, inputs.eye_params,
-                             inputs.b_eye, inputs.lut, -1, s, cubes=inputs.cubes)
+    if inputs.lab is not None:
+        s = lab_signal(inputs, view.directions().reshape(-1, 3)).reshape(view.shape)
+    else:
+        s = np.empty(view.shape)
+        kernels.pattern_equirect(*view.tables(), np.eye(3), inputs.R_eye_head, inputs.eye_params,
+                                 inputs.b_eye, inputs.lut, -1, s, cubes=inputs.cubes)
     w = view.solid_angle()
     seen = ~np.isnan(s)
     if not seen.any():
@@ -320,7 +457,10 @@ def composite_inputs(inputs, mean, layout, view, scene, gain, outside) -> np.nda
     :func:`_supersampled_factor`).
     """
     n = int(getattr(view, "supersample", 1))
-    if n > 1:
+    if n > 1 or inputs.lab is not None:
+        # The scene through the view's filter, unmodulated, times each pixel's factor
+        # (box-averaged over n x n sub-pixels; n = 1 for a lab-fixed RF frame, whose
+        # signal the kernels do not evaluate).
         base = _composite(inputs, mean, layout, view, scene, 0.0, 1.0)
         k, seen = _supersampled_factor(inputs, mean, layout, view, n, gain, outside)
         out = base * k[..., None].astype(np.float32)
@@ -336,7 +476,7 @@ def _supersampled_factor(inputs, mean, layout, view, n, gain, outside):
     pattern and the visual-field outline get the pixel's box-filtered value rather than
     its centre's.  Returns (factor (H, W), any sub-pixel seen (H, W) bool)."""
     H, W = view.shape
-    fine = view.scaled(n)
+    fine = view if n == 1 else view.scaled(n)
     sig = signal_map(inputs, fine, layout, inputs.lut)
     seen = ~np.isnan(sig)
     k = np.where(seen, 1.0 + gain * (np.where(seen, sig, mean) / mean - 1.0), outside)

@@ -9,12 +9,14 @@ from .legendre import Legendre
 from .tabulated import Tabulated
 from .harmonic import SphericalHarmonic
 from .spin_table import SpinTable
+from .rf_lab_response import LabRFResponse
 
 REGISTRY = {
     "legendre": Legendre,
     "tabulated": Tabulated,
     "harmonic": SphericalHarmonic,
     "spin-table": SpinTable,
+    "rf-lab-table": LabRFResponse,
 }
 
 __all__ = ["AxialResponse", "Legendre", "Tabulated", "LUT_SIZE", "PRODUCTS", "lut_nodes", "REGISTRY"]

@@ -76,6 +76,8 @@ def build_response(cfg, base_dir):
     if cfg.get("csv"):
         return cls.from_csv(resolve_path(base_dir, cfg["csv"]))
     kw = {k: v for k, v in cfg.items() if k not in ("kind", "product", "csv")}
+    if isinstance(kw.get("path"), str):  # table files are relative to the study's folder
+        kw["path"] = resolve_path(base_dir, kw["path"])
     return cls(**kw)
 
 

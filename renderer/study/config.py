@@ -293,9 +293,19 @@ def _v_layout(raw, base_dir, out, problems):
     out["layout"] = _check_layout(raw.get("layout", {}), base_dir, problems)
 
 
+#: The response kind of lab-fixed RF tables: only an rf-on step (with the coil's
+#: direction) selects one, so it is never the default [response].
+LAB_RF_KIND = "rf-lab-table"
+
+
 def _v_response(raw, base_dir, out, problems):
     out["response"] = check_response("response", raw.get("response", {
         "kind": "legendre", "coeffs": [0.7, 0.0, 0.1]}), base_dir, problems)
+    if out["response"].get("kind") == LAB_RF_KIND:
+        problems.append(f"response.kind = {LAB_RF_KIND!r}: a lab-fixed RF table needs the RF "
+                        f"coil's direction; define it as [responses.NAME] and switch it on "
+                        f"with a timeline step action = 'rf-on', select = NAME, direction = "
+                        f"[north, east, down]")
 
 
 def _v_responses(raw, base_dir, out, problems):
@@ -334,8 +344,10 @@ def _v_sequence(raw, base_dir, out, problems):
 
 
 def _v_timeline(raw, base_dir, out, problems):
+    lab = {n for n, r in out["responses"].items()
+           if isinstance(r, dict) and r.get("kind") == LAB_RF_KIND}
     out["timeline"] = sequences.check_timeline(raw.get("timeline", {}), set(out["responses"]),
-                                               problems)
+                                               problems, lab_names=lab)
 
 
 def _v_output(raw, base_dir, out, problems):
@@ -598,6 +610,8 @@ def check_response(path, tbl, base_dir, problems):
                             f"response)")
         return out
     out.update(check_passthrough(path, tbl, cls, problems, reserved=("kind", "product", "csv")))
+    if isinstance(out.get("path"), str):
+        _file_key(f"{path}.path", out["path"], base_dir, problems)
     return out
 
 

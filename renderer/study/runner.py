@@ -377,10 +377,14 @@ def _sidecar_field(path, key):
 
 def _frame_task(shot, i, write, metrics):
     fs = shot.frames
-    return {"index": i, "t_s": float(fs.t_s[i]), "yaw_deg": float(fs.yaw_deg[i]),
+    task = {"index": i, "t_s": float(fs.t_s[i]), "yaw_deg": float(fs.yaw_deg[i]),
             "pitch_deg": float(fs.pitch_deg[i]), "roll_deg": float(fs.roll_deg[i]),
             "b_ned_T": fs.b_ned_T[i].tolist(), "ambient_ned_T": fs.ambient_ned_T[i].tolist(),
             "response": fs.response[i], "files": write, "metrics": metrics}
+    rf = fs.extra.get("rf_ned")
+    if rf is not None and all(math.isfinite(x) for x in rf[i]):
+        task["rf_ned"] = [float(x) for x in rf[i]]  # the RF coil's direction (world NED) in this frame
+    return task
 
 
 def _display_task(cfg, base_dir):

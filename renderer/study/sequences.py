@@ -22,7 +22,10 @@ a named ``[responses.NAME]`` table), and ``rf-on`` / ``rf-off``: a radio-frequen
 field switched on selects the response table computed with it (``select``, a
 ``[responses.NAME]`` entry) and records its ``amplitude_nT``, ``frequency_MHz``
 and ``direction`` (checked with :class:`renderer.spin.rf.RFField`); off returns to
-the default response.  Steps compose in time order; ``ambient`` resets the coil
+the default response.  When the selected entry is a lab-fixed RF table
+(``kind = "rf-lab-table"``) the step's ``direction`` (world NED) is required and
+is carried per frame (``FrameSeries.extra["rf_ned"]``), so each receptor reads the
+static and the RF direction in its own frame.  Steps compose in time order; ``ambient`` resets the coil
 manipulations (not the RF state).  Adding an action is one entry in
 ``STEP_KEYS`` and one in ``TIMELINE_ACTIONS``.  Nothing here renders.
 
@@ -170,8 +173,12 @@ def check_sequence(tbl, base_dir, problems) -> dict:
     return out
 
 
-def check_timeline(tbl, response_names, problems) -> dict:
-    """Validate ``[timeline]``: ``steps`` is an array of {t_s, action, ...}."""
+def check_timeline(tbl, response_names, problems, lab_names=()) -> dict:
+    """Validate ``[timeline]``: ``steps`` is an array of {t_s, action, ...}.
+
+    ``lab_names``: the ``[responses.NAME]`` entries that are lab-fixed RF tables; only an
+    ``rf-on`` step with the coil's ``direction`` (world NED, 3 finite numbers, not all 0)
+    may select one."""
     if not isinstance(tbl, dict):
         problems.append("timeline: must be a table")
         return {"steps": []}
@@ -202,6 +209,8 @@ def check_timeline(tbl, response_names, problems) -> dict:
             rf = _check_rf(path, s, problems)
             if rf is not None:
                 s = {**s, "rf": rf}
+        if s.get("select") in lab_names:
+            _check_lab_step(path, action, s, problems)
         if action in ("response", "rf-on") and s.get("select") is not None and \
                 s["select"] != "default" and s["select"] not in response_names:
             problems.append(f"{path}.select = {s['select']!r}: allowed 'default'"
@@ -215,6 +224,25 @@ def check_timeline(tbl, response_names, problems) -> dict:
             last = t
         out.append(s)
     return {"steps": out}
+
+
+def _check_lab_step(path, action, s, problems):
+    """A step selecting a lab-fixed RF table: rf-on with the coil direction."""
+    if action != "rf-on":
+        problems.append(f"{path}.select = {s['select']!r}: a lab-fixed RF table; select it with "
+                        f"action = 'rf-on' and the coil's direction = [north, east, down]")
+        return
+    d = s.get("direction")
+    if d is None:
+        problems.append(f"{path}.direction: missing; rf-on selecting the lab-fixed RF table "
+                        f"{s['select']!r} needs the RF coil's direction in the world frame, "
+                        f"[north, east, down] (any length, not 0)")
+        return
+    if not (isinstance(d, list) and len(d) == 3
+            and all(isinstance(x, (int, float)) and not isinstance(x, bool) and math.isfinite(x)
+                    for x in d) and any(x != 0 for x in d)):
+        problems.append(f"{path}.direction = {d!r}: must be 3 finite numbers [north, east, "
+                        f"down], not all 0")
 
 
 def _check_rf(path, s, problems):
@@ -436,6 +464,8 @@ class CoilState:
     zero: bool = False
     response: str = "default"
     rf: str = ""
+    #: The RF coil's direction (world NED, unit) of the rf-on step in force, () if none.
+    rf_dir: tuple = ()
 
     def label(self) -> str:
         if self == CoilState():
@@ -474,11 +504,21 @@ TIMELINE_ACTIONS = {
     "invert": lambda st, step: replace(st, vertical_sign=-st.vertical_sign),
     "scale": lambda st, step: replace(st, scale=st.scale * step["factor"]),
     "zero": lambda st, step: replace(st, zero=True),
-    "ambient": lambda st, step: replace(CoilState(), response=st.response, rf=st.rf),
-    "response": lambda st, step: replace(st, response=step["select"], rf=""),
-    "rf-on": lambda st, step: replace(st, response=step["select"], rf=step["select"]),
-    "rf-off": lambda st, step: replace(st, response="default", rf=""),
+    "ambient": lambda st, step: replace(CoilState(), response=st.response, rf=st.rf,
+                                        rf_dir=st.rf_dir),
+    "response": lambda st, step: replace(st, response=step["select"], rf="", rf_dir=()),
+    "rf-on": lambda st, step: replace(st, response=step["select"], rf=step["select"],
+                                      rf_dir=_unit_dir(step.get("direction"))),
+    "rf-off": lambda st, step: replace(st, response="default", rf="", rf_dir=()),
 }
+
+
+def _unit_dir(d) -> tuple:
+    if not d:
+        return ()
+    v = np.asarray(d, float)
+    n = float(np.linalg.norm(v))
+    return tuple(float(x) for x in v / n) if n > 0 and np.all(np.isfinite(v)) else ()
 
 
 def coil_states(t_s, steps):
@@ -499,9 +539,13 @@ def apply_field(fs: FrameSeries, ambient_ned_T, timeline_cfg) -> FrameSeries:
     ambient = np.asarray(ambient_ned_T, float).reshape(len(fs), 3)
     states = coil_states(fs.t_s, timeline_cfg.get("steps", []))
     b = np.stack([s.apply(v) for s, v in zip(states, ambient)]) if len(fs) else ambient
+    extra = fs.extra
+    if any(s.rf_dir for s in states):
+        # the RF coil's direction per frame (NaN where no rf-on step with one is in force)
+        extra = {**extra, "rf_ned": np.array([s.rf_dir or (np.nan,) * 3 for s in states])}
     return replace(fs, ambient_ned_T=ambient, b_ned_T=b,
                    response=tuple(s.response for s in states),
-                   coil=tuple(s.label() for s in states))
+                   coil=tuple(s.label() for s in states), extra=extra)
 
 
 def build_series(seq_cfg, timeline_cfg, ctx: SequenceContext, field_fn) -> FrameSeries:

@@ -226,6 +226,9 @@ def render_chunk(task: dict, resources=None) -> dict:
             pose = Pose(fr["yaw_deg"], fr["pitch_deg"], fr["roll_deg"])
             rkey = fr["response"]
             response, product = res.responses[rkey], res.products[rkey]
+            if getattr(response, "lab_rf", False):
+                # a lab-fixed RF table reads the coil direction of this frame's rf-on step
+                response = response.with_rf(fr["rf_ned"])
             inputs = prepare(field, pose, res.layout, response, product)
             mean = visual_field_mean(inputs)
             if mean == 0.0:
