@@ -33,7 +33,7 @@ import numpy as np
 
 from ..errors import ConfigError, MagretinaError
 from . import sequences
-from .build import build_view, field_function, resources_key
+from .build import build_view, field_function, resources_config, resources_key
 from .config import Study, mark_given, override_display, read_study, validate
 from .schema import canonical_json
 from ..budget import check_frame_count, frame_limit
@@ -225,13 +225,16 @@ def collect_axes(sweep, problems) -> list[Axis]:
     return axes
 
 
-def check_axis_values(study_raw, base_dir, axes, problems, known=(), base=None, cache=None):
+def check_axis_values(study_raw, base_dir, axes, problems, known=(), base=None, cache=None,
+                      resolved=None):
     """Check every axis value substituted alone into the study.
 
     With ``base`` (the study's resolved configuration) only the validation steps
     that read the swept top-level table are re-run, and ``cache`` (a dict shared
     with :func:`plan`) makes a table value that recurs -- in another axis or shot
     -- cost one check.  Without ``base`` the whole study is validated per value.
+    ``resolved`` (a dict) receives ``(axis index, value index) -> resolved study``
+    of each value, which is the shot's configuration when the sweep has one axis.
     """
     for ax in axes:
         path = f"sweep.axis[{ax.index}]"
@@ -244,9 +247,11 @@ def check_axis_values(study_raw, base_dir, axes, problems, known=(), base=None, 
                 break
             sub = []
             if base is None:
-                validate(raw2, base_dir, sub, cache=cache)
+                cfg = validate(raw2, base_dir, sub, cache=cache)
             else:
-                validate(raw2, base_dir, sub, base=base, changed={segs[0]}, cache=cache)
+                cfg = validate(raw2, base_dir, sub, base=base, changed={segs[0]}, cache=cache)
+            if resolved is not None:
+                resolved[(ax.index, j)] = cfg
             for p in sub:
                 if p not in known:
                     problems.append(f"{path} (key {ax.key}) value {j} = {ax.labels[j]}: {p}")
@@ -357,42 +362,56 @@ def plan(study: Study) -> Plan:
     # Each value alone, then each shot: only the validation steps reading a swept
     # table are re-run, and each distinct table value is checked once (the cache).
     cache = {}
-    check_axis_values(raw, study.base_dir, axes, problems, base=study.resolved, cache=cache)
+    # With one axis a shot is one value substituted alone: its configuration is the one
+    # the value check resolved, so it is not validated a second time.
+    single = {} if len(axes) == 1 else None
+    check_axis_values(raw, study.base_dir, axes, problems, base=study.resolved, cache=cache,
+                      resolved=single)
     if problems:
         raise ConfigError(_dedupe(problems), source=study.path)
+    limit = frame_limit()
     combos = list(itertools.product(*[range(len(g[0].values)) for g in groups])) or [()]
     seeds = shot_seeds(study.resolved["study"]["seed"], len(combos))
     width = max(3, len(str(len(combos) - 1)))
     pending = []
     total_frames = 0
+    # Shots that share a table share its resolved object (validation hands out the base's
+    # or the cache's), so per-shot work that reads only some tables is done once per
+    # distinct set of those objects.  Each cache entry holds the objects its key names, so
+    # no id can be reused while the plan is built.
+    series = _IdCache()
     for idx, combo in enumerate(combos):
         r = raw
         coords, params, labels = {}, {}, {}
         for g, k in zip(groups, combo):
             for ax in g:
-                r = set_key_path(r, segs[ax.name], ax.values[k])
+                if single is None:
+                    r = set_key_path(r, segs[ax.name], ax.values[k])
                 coords[ax.name] = k
                 params[ax.name] = ax.values[k]
                 labels[ax.name] = ax.labels[k]
             coords[g[0].name] = k
         sub = []
-        cfg = validate(r, study.base_dir, sub, base=study.resolved, changed=tables,
-                       cache=cache) if combo else study.resolved
+        if single is not None:
+            cfg = single[(axes[0].index, combo[0])]
+        elif combo:
+            cfg = validate(r, study.base_dir, sub, base=study.resolved, changed=tables,
+                           cache=cache)
+        else:
+            cfg = study.resolved
         where = f"shot {idx} ({', '.join(f'{k}={v}' for k, v in labels.items())})" if labels \
             else "study"
         problems.extend(f"{where}: {p}" for p in sub)
         if sub:
             continue
         total_frames += frames_estimate(cfg["sequence"])
-        if total_frames > frame_limit():
+        if total_frames > limit:
             check_frame_count(f"study {study.resolved['study']['name']!r} (by {where})",
                               total_frames)
-        ctx = sequences.SequenceContext(pose=cfg["pose"], site=cfg["site"],
-                                        base_dir=study.base_dir)
-        try:
-            fs = sequences.SEQUENCES[cfg["sequence"]["kind"]](cfg["sequence"], ctx)
-        except MagretinaError as exc:
-            problems.append(f"{where}: {exc}")
+        fs = series.get((cfg["sequence"], cfg["pose"], cfg["site"]),
+                        lambda: _frame_series(cfg, study.base_dir))
+        if isinstance(fs, MagretinaError):
+            problems.append(f"{where}: {fs}")
             continue
         pending.append((idx, coords, params, labels, cfg, fs))
     if problems:
@@ -400,39 +419,48 @@ def plan(study: Study) -> Plan:
     check_frame_count(f"study {study.resolved['study']['name']!r}",
                       sum(len(it[5]) for it in pending))
 
-    # One field evaluation per distinct field configuration, over all its frames.
+    # One field evaluation per distinct field configuration, over the frames of its
+    # distinct frame series (shots sharing a series and a field share the ambient field).
+    field_keys = _IdCache()
     by_field = {}
     for item in pending:
-        fkey = canonical_json(item[4]["field"])
+        fkey = field_keys.get((item[4]["field"],), lambda: canonical_json(item[4]["field"]))
         by_field.setdefault(fkey, []).append(item)
     ambient = {}
     field_info = {}
     for fkey, items in by_field.items():
         fn, info = field_function(items[0][4])
         field_info[info["model"]] = info
-        lat = np.concatenate([it[5].lat_deg for it in items])
-        lon = np.concatenate([it[5].lon_deg for it in items])
-        alt = np.concatenate([it[5].alt_km for it in items])
+        uniq = list({id(it[5]): it[5] for it in items}.values())
+        lat = np.concatenate([f.lat_deg for f in uniq])
+        lon = np.concatenate([f.lon_deg for f in uniq])
+        alt = np.concatenate([f.alt_km for f in uniq])
         try:
             b = np.asarray(fn(lat, lon, alt), float).reshape(-1, 3)
         except MagretinaError as exc:
             problems.append(f"field: {exc}")
             continue
-        k = 0
+        k, part = 0, {}
+        for f in uniq:
+            part[id(f)] = (fkey, b[k:k + len(f)])
+            k += len(f)
         for it in items:
-            n = len(it[5])
-            ambient[it[0]] = b[k:k + n]
-            k += n
+            ambient[it[0]] = part[id(it[5])]
     shots = []
     res_cfgs = {}
+    presented = _IdCache()
+    res_keys = _IdCache()
     for idx, coords, params, labels, cfg, fs in pending:
         if idx not in ambient:
             continue
-        fs = sequences.apply_field(fs, ambient[idx], cfg["timeline"])
-        if not np.all(np.isfinite(fs.b_ned_T)):
+        fkey, amb = ambient[idx]
+        base_fs = fs
+        fs, finite = presented.get((base_fs, cfg["timeline"]),
+                                   lambda: _presented(base_fs, amb, cfg["timeline"]), extra=fkey)
+        if not finite:
             problems.append(f"shot {idx}: the field model gave non-finite values")
             continue
-        rk = resources_key(cfg)
+        rk = res_keys.get(tuple(resources_config(cfg).values()), lambda: resources_key(cfg))
         res_cfgs.setdefault(rk, cfg)
         shots.append(Shot(idx, f"shot{idx:0{width}d}", coords, params, labels, cfg, seeds[idx],
                           rk, fs))
@@ -443,6 +471,37 @@ def plan(study: Study) -> Plan:
     if problems:
         raise ConfigError(_dedupe(problems), source=study.path)
     return p
+
+
+class _IdCache:
+    """Values computed once per distinct tuple of objects (by identity), for per-shot work
+    on resolved tables that shots share.  Holds the objects, so their ids stay theirs."""
+
+    def __init__(self):
+        self._d = {}
+
+    def get(self, objs, make, extra=None):
+        key = (*map(id, objs), extra)
+        hit = self._d.get(key)
+        if hit is None:
+            hit = self._d[key] = (objs, make())
+        return hit[1]
+
+
+def _presented(fs, ambient, timeline):
+    """(the series with its ambient and presented field, whether every value is finite)."""
+    out = sequences.apply_field(fs, ambient, timeline)
+    return out, bool(np.all(np.isfinite(out.b_ned_T)))
+
+
+def _frame_series(cfg, base_dir):
+    """The shot's frame series before the field (a MagretinaError is returned, not raised,
+    so that shots sharing the tables report it without rebuilding it)."""
+    ctx = sequences.SequenceContext(pose=cfg["pose"], site=cfg["site"], base_dir=base_dir)
+    try:
+        return sequences.SEQUENCES[cfg["sequence"]["kind"]](cfg["sequence"], ctx)
+    except MagretinaError as exc:
+        return exc
 
 
 def frames_estimate(seq) -> int:
@@ -469,10 +528,11 @@ def frames_estimate(seq) -> int:
 
 def _check_outputs(p: Plan, problems):
     shapes = {}  # one view built per distinct view table (shots share most of them)
+    reprs = _IdCache()
     for s in p.shots:
         out = s.config["output"]
         for name, vcfg in s.config["views"].items():
-            key = repr(vcfg)
+            key = reprs.get((vcfg,), lambda: repr(vcfg))
             if key not in shapes:
                 try:
                     shapes[key] = build_view(vcfg).shape
