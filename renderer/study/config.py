@@ -432,13 +432,26 @@ def validate(raw: dict, base_dir: str, problems: list, *, base: dict | None = No
         if key not in SECTIONS and (changed is None or key in raw):
             problems.append(f"{key}: unknown table;{did_you_mean(key, SECTIONS)} allowed: "
                             f"{', '.join(SECTIONS)}")
+    reprs = {}
+
+    def rep(t):  # each raw table's repr once per call
+        r = reprs.get(t)
+        if r is None:
+            r = reprs[t] = repr(raw.get(t))
+        return r
+
     if changed is not None:
         for key in sorted(changed):
             if key in raw:
-                _check_texts(raw[key], problems, key)
-    for name, reads, fn in STEPS:
-        if changed is not None and not changed.intersection(reads):
-            continue
+                if cache is None:
+                    _check_texts(raw[key], problems, key)
+                    continue
+                tkey = ("texts", key, rep(key))
+                if tkey not in cache:
+                    cache[tkey] = []
+                    _check_texts(raw[key], cache[tkey], key)
+                problems.extend(cache[tkey])
+    for name, reads, fn in STEPS if changed is None else _steps_reading(changed):
         if cache is None:
             fn(raw, base_dir, out, problems)
         else:
@@ -446,7 +459,7 @@ def validate(raw: dict, base_dir: str, problems: list, *, base: dict | None = No
             # the resolved tables of those same raw tables).  repr tells TOML values
             # apart exactly (floats round-trip, 1 != 1.0 != true); a different key
             # order only costs a second check.
-            ckey = (name, repr([raw.get(t) for t in reads]))
+            ckey = (name, tuple(rep(t) for t in reads))
             hit = cache.get(ckey)
             if hit is None:
                 part, sub = {t: out[t] for t in reads if t != name and t in out}, []
@@ -461,6 +474,18 @@ def validate(raw: dict, base_dir: str, problems: list, *, base: dict | None = No
         if name == "study" and changed is None:
             _check_texts(raw, problems)
     return out
+
+
+_STEPS_READING: dict = {}
+
+
+def _steps_reading(changed) -> tuple:
+    """The validation steps that read any of the tables in ``changed`` (memoised)."""
+    key = frozenset(changed)
+    hit = _STEPS_READING.get(key)
+    if hit is None:
+        hit = _STEPS_READING[key] = tuple(st for st in STEPS if key.intersection(st[1]))
+    return hit
 
 
 #: Longest study name (the default output folder is named after it).

@@ -281,9 +281,18 @@ def load_study(path, display=None) -> Study:
         # Also report bad sweep values now, not after the first round of fixes.
         if isinstance(resolved.get("sweep"), dict):
             # Sectional checks (only the swept table's steps per value, each distinct
-            # value once), so a long sweep over a broken study stays cheap to report.
-            build_axes(raw, base, resolved["sweep"], problems, known=set(problems),
-                       base=resolved, cache={})
+            # value once), so a long sweep over a broken study stays cheap to report;
+            # a sweep over the frame limit is reported as such, its values unchecked.
+            known = set(problems)
+            axes = collect_axes(resolved["sweep"], problems)
+            try:
+                check_frame_count(f"study ({sweep_shots(axes)} shots)",
+                                  sweep_shots(axes) * _frames_per_shot(axes, resolved))
+            except MagretinaError as exc:
+                problems.append(str(exc))
+            else:
+                check_axis_values(raw, base, axes, problems, known=known, base=resolved,
+                                  cache={})
         raise ConfigError(mark_given(problems, "display", display or {}),
                           source=os.fspath(path))
     return Study(os.fspath(path), base, hashlib.sha256(data).hexdigest(), raw, resolved,
@@ -325,10 +334,84 @@ class Plan:
         return max(len(s.frames) for s in self.shots)
 
 
+def sweep_shots(axes) -> int:
+    """Shots of a sweep: the product of its group lengths (zipped axes count once)."""
+    lengths = {}
+    for ax in axes:
+        lengths.setdefault(ax.group, len(ax.values))
+    return math.prod(lengths.values())
+
+
+def _frames_per_shot(axes, resolved) -> int:
+    """Frames of each shot before expanding: 1 if the sequence or timeline is swept, else
+    the study's own sequence (at least 1)."""
+    tables = {parse_key_path(ax.key)[0] for ax in axes}
+    if tables & {"sequence", "timeline"} or not isinstance(resolved.get("sequence"), dict):
+        return 1
+    return max(1, frames_estimate(resolved["sequence"]))
+
+
 def shot_seeds(master: int, n: int) -> list[int]:
-    """64-bit seeds of ``n`` shots spawned from one master seed (SeedSequence)."""
-    children = np.random.SeedSequence(int(master)).spawn(n)
-    return [int(c.generate_state(1, np.uint64)[0]) for c in children]
+    """64-bit seeds of ``n`` shots spawned from one master seed (SeedSequence).
+
+    ``numpy.random.SeedSequence(master).spawn(n)[i].generate_state(1, uint64)[0]``, computed
+    for all children at once: NumPy's SeedSequence hash (O'Neill's seed_seq mixing, as
+    NumPy implements it) applied with array arithmetic modulo 2³² to the children's entropy
+    words, which differ only in the spawn key (i,).  Checked bit for bit against NumPy in
+    the tests; NumPy's own loop is used where the shortcut's assumptions (a master of at most
+    four 32-bit words, fewer than 2³² children) do not hold.
+    """
+    run = _words32(int(master))
+    if n == 0:
+        return []
+    if len(run) > _POOL or n >= 2 ** 32:
+        children = np.random.SeedSequence(int(master)).spawn(n)
+        return [int(c.generate_state(1, np.uint64)[0]) for c in children]
+    m32 = np.uint64(0xFFFFFFFF)
+    entropy = [np.full(n, w, np.uint64) for w in run + [0] * (_POOL - len(run))]
+    entropy.append(np.arange(n, dtype=np.uint64))  # the spawn key (i,)
+    hash_const = [_INIT_A]
+
+    def hashmix(v):
+        v = (v ^ np.uint64(hash_const[0])) & m32
+        hash_const[0] = (hash_const[0] * _MULT_A) & 0xFFFFFFFF
+        v = (v * np.uint64(hash_const[0])) & m32
+        return v ^ (v >> np.uint64(16))
+
+    def mix(x, y):
+        r = (np.uint64(_MIX_L) * x - np.uint64(_MIX_R) * y) & m32
+        return r ^ (r >> np.uint64(16))
+
+    pool = [hashmix(entropy[i]) for i in range(_POOL)]
+    for i_src in range(_POOL):
+        for i_dst in range(_POOL):
+            if i_src != i_dst:
+                pool[i_dst] = mix(pool[i_dst], hashmix(pool[i_src]))
+    for i_src in range(_POOL, len(entropy)):
+        for i_dst in range(_POOL):
+            pool[i_dst] = mix(pool[i_dst], hashmix(entropy[i_src]))
+    hb, state = _INIT_B, []
+    for k in range(2):  # two 32-bit words make the uint64, low word first
+        v = (pool[k] ^ np.uint64(hb)) & m32
+        hb = (hb * _MULT_B) & 0xFFFFFFFF
+        v = (v * np.uint64(hb)) & m32
+        state.append(v ^ (v >> np.uint64(16)))
+    return (state[0] | (state[1] << np.uint64(32))).tolist()
+
+
+# NumPy's SeedSequence constants (numpy/random/bit_generator.pyx): pool of four 32-bit words.
+_POOL = 4
+_INIT_A, _MULT_A, _INIT_B, _MULT_B = 0x43b0d7e5, 0x931e8875, 0x8b51f9dd, 0x58f38ded
+_MIX_L, _MIX_R = 0xca01f9dd, 0x4973f715
+
+
+def _words32(x: int) -> list[int]:
+    """A non-negative integer as little-endian 32-bit words ([0] for 0), as NumPy takes it."""
+    out = []
+    while x:
+        out.append(x & 0xFFFFFFFF)
+        x >>= 32
+    return out or [0]
 
 
 def plan(study: Study) -> Plan:
@@ -350,15 +433,13 @@ def plan(study: Study) -> Plan:
         else:
             groups.append([ax])
     dims = tuple((g[0].name, len(g[0].values), tuple(a.name for a in g)) for g in groups)
-    n_combos = math.prod(len(g[0].values) for g in groups)
+    n_combos = sweep_shots(axes)
     segs = {ax.name: parse_key_path(ax.key) for ax in axes}
     tables = {sg[0] for sg in segs.values()}
     # Every shot has at least one frame (and, unless the sequence is swept, as many as
     # the study's own sequence): refuse before checking or expanding anything.
-    per_shot = 1 if tables & {"sequence", "timeline"} else \
-        max(1, frames_estimate(study.resolved["sequence"]))
     check_frame_count(f"study {study.resolved['study']['name']!r} ({n_combos} shots)",
-                      n_combos * per_shot)
+                      n_combos * _frames_per_shot(axes, study.resolved))
     # Each value alone, then each shot: only the validation steps reading a swept
     # table are re-run, and each distinct table value is checked once (the cache).
     cache = {}

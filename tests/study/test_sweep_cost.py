@@ -131,3 +131,32 @@ def test_100000_values_checked_once_each(tmp_path, monkeypatch):
                              cache=cache)
     assert not problems
     assert calls == {"render": 100000}
+
+
+@pytest.mark.parametrize("master", [0, 1, 42, 2**32 + 5, 2**63 - 1])
+def test_shot_seeds_equal_numpy_seedsequence(master):
+    """The all-children-at-once seeds are NumPy's SeedSequence(master).spawn(n)[i]
+    .generate_state(1, uint64)[0] bit for bit (NumPy's own implementation is the
+    reference; the derivation is the one study.json documents)."""
+    import numpy as np
+
+    n = 1500
+    ref = [int(c.generate_state(1, np.uint64)[0])
+           for c in np.random.SeedSequence(master).spawn(n)]
+    assert expand.shot_seeds(master, n) == ref
+    assert expand.shot_seeds(master, 0) == []
+
+
+def test_broken_study_with_a_huge_sweep_reports_the_frame_limit_unchecked(tmp_path, monkeypatch):
+    """A study with an error elsewhere and a sweep over the frame limit (100,000 values x 2
+    frames) lists both problems without checking a single value (this took minutes when
+    every value was checked first)."""
+    p = tmp_path / "s.toml"
+    p.write_text(BASE.format(frames=2, n_gain=100000, more="").replace(
+        'name = "cost"', "name = 5"))
+    calls = _counting(monkeypatch)
+    with pytest.raises(ConfigError) as e:
+        load_study(p)
+    msg = str(e.value)
+    assert "study.name" in msg and "200000 frames" in msg
+    assert calls.get("render") == 1  # the study's own [render], no sweep value
