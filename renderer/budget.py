@@ -72,6 +72,11 @@ def _env_number(name):
     return x
 
 
+#: Largest memory limit accepted (GB): a million terabytes, far above any machine, so a
+#: typo such as 1e308 is refused instead of overflowing the byte count.
+MAX_MEMORY_GB = 1e9
+
+
 def memory_limit_bytes(max_memory_gb=None) -> int:
     """The memory a command may plan to use, bytes.
 
@@ -84,12 +89,15 @@ def memory_limit_bytes(max_memory_gb=None) -> int:
     """
     if max_memory_gb is not None:
         x = float(max_memory_gb)
-        if not (x > 0 and x < float("inf")):
+        if not (0 < x <= MAX_MEMORY_GB):
             raise MagretinaError(f"--max-memory-gb = {max_memory_gb!r}: must be a positive "
-                                 f"finite number of GB")
+                                 f"number of GB, at most {MAX_MEMORY_GB:g}")
         return int(x * 1e9)
     x = _env_number(MEMORY_ENV)
     if x is not None:
+        if not (0 < x <= MAX_MEMORY_GB):
+            raise MagretinaError(f"{MEMORY_ENV} = {x!r}: must be a positive number of GB, at "
+                                 f"most {MAX_MEMORY_GB:g}")
         return int(x * 1e9)
     total = total_memory_bytes()
     return int(MEMORY_FRACTION * total) if total else 8 * 10**9

@@ -259,6 +259,10 @@ def _warm_and_report(tmp_path_factory):
         assert main(["run", str(d / "s.toml"), "--out", str(d / "o"), "--quiet"]) == 0
         main(["render", "--lat-deg", "1", "--lon-deg", "1", "--width", "16", "--out",
               str(d / "o.png")])
+        # the demo's views (eye discs, perspective) use kernels of their own: compiled here,
+        # not inside a traced case, where a cold compile on a loaded machine can outlast
+        # HANG_S and be interrupted (so never cached, and every later demo case recompiles)
+        main(["demo", "--out", str(d / "demo"), "--width", "16"])
         for cmd in ("predict", "orient", "report", "response", "spin-plan", "demo", "field",
                     "presets", "new-study"):
             with contextlib.suppress(SystemExit):

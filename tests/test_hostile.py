@@ -332,3 +332,28 @@ def test_atomic_writes_sync_the_folder(tmp_path, monkeypatch):
     monkeypatch.setattr(rio.os, "fsync", spy)
     rio.atomic_write_bytes(tmp_path / "sub" / "a.bin", b"x")
     assert synced and synced[-1] in (os.path.realpath(tmp_path / "sub"), "dir")
+
+
+def test_spin_command_outputs_are_checked_before_any_work(tmp_path, capsys):
+    """Found by the fuzz campaign (tests/test_fuzz.py): spin-plan and rf-table wrote over an
+    input file named as --out, crashed on a folder or a NUL character as --out, and
+    rf-spectrum overflowed on --max-memory-gb 1e308.  Each is now one refusal line, the
+    existing file untouched."""
+    keep = tmp_path / "study.toml"
+    keep.write_text("x = 1\n")
+    folder = tmp_path / "out"
+    folder.mkdir()
+    base = ["toy-axial-n", "--field-ut", "50"]
+    rf = ["--rf-nt", "100", "--rf-mhz", "1.4", "--lmax", "0"]
+    for argv, needle in (
+            (["spin-plan", *base, "--out", str(keep)], "--force"),
+            (["spin-plan", *base, "--out", str(folder)], "is a folder"),
+            (["spin-plan", *base, "--out", str(tmp_path / "t.npz"), "--run-dir", str(keep)],
+             "--run-dir"),
+            (["rf-table", *base, *rf, "--out", str(tmp_path / "a\x00b")], "NUL"),
+            (["rf-table", *base, *rf, "--out", str(keep)], "--force"),
+            (["rf-spectrum", *base, "--rf-nt", "100", "--points", "2", "--out",
+              str(tmp_path / "s.json"), "--max-memory-gb", "1e308"], "--max-memory-gb")):
+        refused(argv, capsys, needle)
+    assert keep.read_text() == "x = 1\n"
+    assert sorted(os.listdir(tmp_path)) == ["out", "study.toml"]

@@ -105,6 +105,7 @@ def register(subparsers):
     p.add_argument("--tol", type=float, default=1e-6, help="error bound of the spectral method")
     p.add_argument("--samples", type=int, default=256, help="Monte Carlo samples per direction")
     p.add_argument("--out", default=None, metavar="TABLE", help="run and write the table (.npz)")
+    p.add_argument("--force", action="store_true", help="overwrite an existing --out file")
     p.add_argument("--run-dir", default=None,
                    help="folder for per-direction results, so an interrupted run resumes "
                         "(default: none, no resume)")
@@ -123,6 +124,7 @@ def register(subparsers):
     s.add_argument("--points", type=int, default=50,
                    help="number of frequencies, evenly spaced from --f-min-mhz to --f-max-mhz (2..10000)")
     s.add_argument("--out", required=True, help="output JSON; the plot goes beside it (.png)")
+    s.add_argument("--force", action="store_true", help="overwrite existing output files")
     s.set_defaults(func=cmd_spectrum)
 
     t = subparsers.add_parser("rf-table", help="full-sphere response table with an RF field on",
@@ -136,6 +138,7 @@ def register(subparsers):
     t.add_argument("--lmax", type=int, default=8,
                    help="highest spherical-harmonic degree of the fit (even, 0..64)")
     t.add_argument("--out", required=True, metavar="TABLE", help="output response table (.npz)")
+    t.add_argument("--force", action="store_true", help="overwrite an existing --out file")
     t.add_argument("--run-dir", default=None,
                    help="folder for per-direction results, so an interrupted run resumes "
                         "(default: none, no resume)")
@@ -154,6 +157,7 @@ def register(subparsers):
     g.add_argument("--lmax-rf", type=int, default=4,
                    help="highest harmonic degree in the RF direction (even, 0..16)")
     g.add_argument("--out", required=True, metavar="TABLE", help="output RF lab table (.npz)")
+    g.add_argument("--force", action="store_true", help="overwrite an existing --out file")
     g.set_defaults(func=cmd_rf_lab_table)
     for q in (p, s, t, g):
         _common.add_budget_args(q)
@@ -172,7 +176,16 @@ def _lmax(v):
     return v
 
 
+def _check_outputs(args, *extra):
+    """Refuse a bad or existing --out (and --run-dir) before any work: one line each."""
+    _common.check_out_file("--out", args.out)
+    _common.check_out_dir("--run-dir", getattr(args, "run_dir", None))
+    if args.out is not None:
+        _common.refuse_overwrite([args.out, *extra], getattr(args, "force", False))
+
+
 def cmd_plan(args) -> int:
+    _check_outputs(args)
     # deferred: library modules load when the command runs, so start-up stays light
     from ..response.harmonic import lebedev_grid, lebedev_order_for
     from ..response.spin_table import compute_table
@@ -239,6 +252,7 @@ def cmd_plan(args) -> int:
 
 
 def cmd_spectrum(args) -> int:
+    _check_outputs(args, os.path.splitext(str(args.out))[0] + ".png")
     # deferred: library modules load when the command runs, so start-up stays light
     from tqdm import tqdm
 
@@ -277,6 +291,7 @@ def cmd_spectrum(args) -> int:
 
 
 def cmd_rf_table(args) -> int:
+    _check_outputs(args)
     # deferred: library modules load when the command runs, so start-up stays light
     from ..response.harmonic import lebedev_grid, lebedev_order_for
     from ..response.spin_table import compute_table
@@ -314,6 +329,7 @@ def cmd_rf_table(args) -> int:
 
 
 def cmd_rf_lab_table(args) -> int:
+    _check_outputs(args)
     # deferred: library modules load when the command runs, so start-up stays light
     from ..response.rf_lab_table import MAX_LMAX_RF, MAX_LMAX_STATIC, compute_lab_table, estimate_lab_table
     from ..spin.rf import RFField
