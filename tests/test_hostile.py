@@ -357,3 +357,17 @@ def test_spin_command_outputs_are_checked_before_any_work(tmp_path, capsys):
         refused(argv, capsys, needle)
     assert keep.read_text() == "x = 1\n"
     assert sorted(os.listdir(tmp_path)) == ["out", "study.toml"]
+
+
+def test_second_campaign_findings(tmp_path, capsys):
+    """Found by the fuzz campaign (tests/test_fuzz.py, second round): an infinite fixed
+    field declination and a density of 1e308 per deg² crashed predict; rf-table with the
+    same path as --out and --run-dir crashed after computing the table."""
+    refused(["predict", "--field-ut", "50", "--inclination-deg", "60", "--declination-deg",
+             "inf"], capsys, "--declination-deg")
+    refused(["predict", "--lat-deg", "10", "--lon-deg", "20", "--density", "1e308"], capsys,
+            "--density")
+    same = str(tmp_path / "x")
+    refused(["rf-table", "toy-axial-n", "--field-ut", "50", "--rf-nt", "100", "--rf-mhz", "1.4",
+             "--lmax", "0", "--out", same, "--run-dir", same], capsys, "--run-dir")
+    assert not os.listdir(tmp_path)

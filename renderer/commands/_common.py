@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import argparse
 import datetime as _dt
+import math
 import os
 import re
 import sys
@@ -175,6 +176,10 @@ def field_from_args(a):
     if a.field_ut is not None:
         if a.inclination_deg is None:
             raise MagretinaError("--field-ut needs --inclination-deg (degrees)")
+        for flag, v in (("--field-ut", a.field_ut), ("--inclination-deg", a.inclination_deg),
+                        ("--declination-deg", a.declination_deg)):
+            if v is not None and not math.isfinite(v):
+                raise MagretinaError(f"{flag} = {v!r}: must be a finite number")
         return fixed(a.field_ut, a.inclination_deg, a.declination_deg)
     if a.lat_deg is None or a.lon_deg is None:
         raise MagretinaError("give a site (--lat-deg and --lon-deg) or a fixed field "

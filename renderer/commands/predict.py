@@ -10,6 +10,7 @@ assumptions, not measurements.
 from __future__ import annotations
 
 import json
+import math
 import os
 import sys
 
@@ -92,6 +93,9 @@ def check_predict(a, n_headings):
         # 41253 square degrees on the sphere; the Fisher sums hold a few float64
         # (headings x receptors) arrays at once.
         n_rec = max(1.0, float(a.density) * 41253.0)
+        if not math.isfinite(n_rec):
+            raise MagretinaError(f"--density = {a.density!r}: gives more receptors than can be "
+                                 f"counted; must be a finite density per deg²")
         est.add("heading tables", 4 * 8 * n_rec * n_headings)
     if a.noisy:
         if a.width < 8 or a.width % 2:

@@ -179,7 +179,10 @@ def _lmax(v):
 def _check_outputs(args, *extra):
     """Refuse a bad or existing --out (and --run-dir) before any work: one line each."""
     _common.check_out_file("--out", args.out)
-    _common.check_out_dir("--run-dir", getattr(args, "run_dir", None))
+    run_dir = _common.check_out_dir("--run-dir", getattr(args, "run_dir", None))
+    if run_dir is not None and args.out is not None and \
+            os.path.abspath(run_dir) == os.path.abspath(args.out):
+        raise MagretinaError(f"--run-dir {run_dir}: is the --out file; give a folder of its own")
     if args.out is not None:
         _common.refuse_overwrite([args.out, *extra], getattr(args, "force", False))
 
