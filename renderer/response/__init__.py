@@ -16,6 +16,12 @@ REGISTRY = {
     "tabulated": Tabulated,
     "harmonic": SphericalHarmonic,
     "spin-table": SpinTable,
+}
+
+#: Kinds a study file may also name that are not single-direction responses: a lab-fixed RF
+#: table reads two directions per receptor (the static field and the RF coil), so it is
+#: switched on by a timeline step that gives the coil's direction.
+STUDY_ONLY = {
     "rf-lab-table": LabRFResponse,
 }
 

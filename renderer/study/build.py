@@ -21,13 +21,16 @@ from ..errors import MagretinaError
 from ..eye import load_layout
 from ..field import MODELS as SITE_MODELS
 from ..field import fixed
-from ..response import REGISTRY as RESPONSES
+from ..response import REGISTRY, STUDY_ONLY
 from ..scene import Scene, dusk, uniform
 from ..views import REGISTRY as VIEWS
 from ..views import HeadPanorama
 from .schema import canonical_json, resolve_path
 from .sequences import SequenceContext, build_series
 from ..pipeline import check_signal_nonzero
+
+#: Response kinds of study files: the registry and the study-only kinds.
+RESPONSES = {**REGISTRY, **STUDY_ONLY}
 
 
 def build_layout(cfg, base_dir):

@@ -58,13 +58,16 @@ from ..field import MODELS as SITE_MODELS
 from ..field.base import check_igrf_date
 from ..inputs import read_toml_bytes
 from ..response import PRODUCTS
-from ..response import REGISTRY as RESPONSES
+from ..response import REGISTRY, STUDY_ONLY
 from ..views import REGISTRY as VIEWS
 from . import sequences
 from .metrics import PROVIDERS
 from .orientation_config import check_orientation
 from .schema import (REQUIRED, Key, canonical_json, check_even, check_names_in, check_passthrough,
                      check_table, check_value, resolve_path)
+
+#: Response kinds of study files: the registry and the study-only kinds.
+RESPONSES = {**REGISTRY, **STUDY_ONLY}
 
 #: Site models of the field registry, and a fixed vector given in the file.
 FIELD_MODELS = (*SITE_MODELS, "fixed")
