@@ -11,6 +11,7 @@ import os
 import numpy as np
 
 from ..errors import MagretinaError
+from .rf_lab_table import RFLabTable
 
 
 class LabRFResponse:
@@ -37,9 +38,6 @@ class LabRFResponse:
     lab_rf = True
 
     def __init__(self, path):
-        # deferred: the table module loads the spin solvers, which only this kind needs
-        from .rf_lab_table import RFLabTable
-
         self.path = os.fspath(path)
         self.table = RFLabTable.load(self.path)
         self.rf_ned = None

@@ -21,7 +21,8 @@ from ..errors import MagretinaError
 from ..eye import load_layout
 from ..field import MODELS as SITE_MODELS
 from ..field import fixed
-from ..response import REGISTRY, STUDY_ONLY
+from ..response import REGISTRY
+from ..response.rf_lab_response import LabRFResponse
 from ..scene import Scene, dusk, uniform
 from ..views import REGISTRY as VIEWS
 from ..views import HeadPanorama
@@ -29,8 +30,9 @@ from .schema import canonical_json, resolve_path
 from .sequences import SequenceContext, build_series
 from ..pipeline import check_signal_nonzero
 
-#: Response kinds of study files: the registry and the study-only kinds.
-RESPONSES = {**REGISTRY, **STUDY_ONLY}
+#: Response kinds of study files: the registry and the study-only lab-fixed RF table (it reads
+#: two directions per receptor, so a timeline step that gives the coil's direction selects it).
+RESPONSES = {**REGISTRY, "rf-lab-table": LabRFResponse}
 
 
 def build_layout(cfg, base_dir):

@@ -58,7 +58,8 @@ from ..field import MODELS as SITE_MODELS
 from ..field.base import check_igrf_date
 from ..inputs import read_toml_bytes
 from ..response import PRODUCTS
-from ..response import REGISTRY, STUDY_ONLY
+from ..response import REGISTRY
+from ..response.rf_lab_response import LabRFResponse
 from ..views import REGISTRY as VIEWS
 from . import sequences
 from .metrics import PROVIDERS
@@ -66,8 +67,9 @@ from .orientation_config import check_orientation
 from .schema import (REQUIRED, Key, canonical_json, check_even, check_names_in, check_passthrough,
                      check_table, check_value, resolve_path)
 
-#: Response kinds of study files: the registry and the study-only kinds.
-RESPONSES = {**REGISTRY, **STUDY_ONLY}
+#: Response kinds of study files: the registry and the study-only lab-fixed RF table (it reads
+#: two directions per receptor, so a timeline step that gives the coil's direction selects it).
+RESPONSES = {**REGISTRY, "rf-lab-table": LabRFResponse}
 
 #: Site models of the field registry, and a fixed vector given in the file.
 FIELD_MODELS = (*SITE_MODELS, "fixed")

@@ -111,7 +111,7 @@ def preview_bytes(frames_u8, fps, kind="gif", max_width=256, label=None) -> byte
         ims[0].save(buf, format="GIF", save_all=True, append_images=ims[1:], duration=duration,
                     loop=0, optimize=False, **extra)
     else:
-        from PIL import PngImagePlugin
+        from PIL import PngImagePlugin  # deferred: only APNG previews need the PNG plugin
 
         info = PngImagePlugin.PngInfo()
         for k, v in (("Title", label.get("title")), ("Description", label.get("comment"))):

@@ -22,7 +22,7 @@ from renderer import kernels, pipeline
 from renderer.errors import ConfigError
 from renderer.field import fixed
 from renderer.pose import Pose
-from renderer.response import LabRFResponse
+from renderer.response.rf_lab_response import LabRFResponse
 from renderer.response.rf_lab_table import compute_lab_table
 from renderer.spin import Nucleus, Radical, RadicalPair
 from renderer.spin.rf import RFField, floquet_singlet_yield
