@@ -12,6 +12,8 @@ directions, the table's default) and the quantum/yield ratio range.  The default
 machine; the cost is per direction, so the extrapolation is linear.
 
 Run:  .venv/bin/python bench/quantum.py [--order 7] [--large]
+"""
+
 from __future__ import annotations
 
 import argparse
