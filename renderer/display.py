@@ -32,6 +32,7 @@ from scipy.interpolate import PchipInterpolator
 from .composite import linear_to_srgb, srgb_to_linear
 from .errors import MagretinaError
 from .inputs import read_csv_rows
+from .kernels.codes import CodeTable, clip_unit_float64, code_luminance, luminance_moments
 
 KINDS = ("srgb", "gamma", "table")
 BITS = (8, 10, 16)
@@ -119,7 +120,7 @@ class Display:
             # Every channel follows the same normalised curve g: the exact inverse gives
             # k (within float rounding, which the clip of p absorbs), two table reads p.
             # About twice as fast as np.interp over the table (bench/encode.py).
-            g = self.relative_curve(np.arange(self.max_code + 1) / self.max_code)
+            g = self.code_luminance()
             k = np.minimum(self.continuous_code(v).astype(np.intp), self.max_code - 1)
             lo = g[k]
             return k + np.clip((v - lo) / (g[k + 1] - lo), 0.0, 1.0)
@@ -132,6 +133,35 @@ class Display:
         lum = self.lut.sum(axis=0)
         return np.interp(v * lum[-1], lum, codes)
 
+    def code_luminance(self) -> np.ndarray:
+        """Relative luminance of every code of an analytic kind, (2**bits,) float64
+        (computed once per kind, bits and gamma; read-only)."""
+        key = (self.kind, self.bits, self.gamma, "luminance")
+        if key not in _THRESHOLDS:
+            g = self.relative_curve(np.arange(self.max_code + 1) / self.max_code)
+            g.setflags(write=False)
+            _THRESHOLDS[key] = g
+        return _THRESHOLDS[key]
+
+    def code_thresholds(self, mode="round"):
+        """Threshold table of this display's codes for float32 inputs, or None.
+
+        ``mode`` "round": the codes of :meth:`continuous_code` rounded (half to even), as
+        the plain quantiser writes them; "floor": the integer part k of
+        :meth:`linear_code`, as the dithering quantisers use it.  Returns a
+        :class:`renderer.kernels.codes.CodeTable` (16 buckets per code): thr[k] is the
+        smallest float32 in [0, 1] whose code is at least k, found by bisection over the
+        float32 values with this class's own transfer (so the table reproduces it bit for
+        bit), and checked on the 64 float32 neighbours either side of every threshold.  Only
+        the analytic kinds at 8 and 10 bits have one (a measured table interpolates, and
+        a 16-bit table would cost more than it saves); None also if the check fails."""
+        if self.kind not in ("srgb", "gamma") or self.bits not in THRESHOLD_BITS:
+            return None
+        key = (self.kind, self.bits, self.gamma, mode)
+        if key not in _THRESHOLDS:
+            _THRESHOLDS[key] = _threshold_table(self, mode)
+        return _THRESHOLDS[key]
+
     def to_relative(self, cd_m2) -> np.ndarray:
         """Luminance in cd/m² -> relative value v = (L − black)/(white − black)."""
         return (np.asarray(cd_m2, np.float64) - self.black_cd_m2) / (self.white_cd_m2
@@ -139,12 +169,20 @@ class Display:
 
     def intended_luminance(self, lin) -> np.ndarray:
         """Luminance (cd/m², shape (...)) the continuous image asks for; ``lin`` (..., 3)."""
-        v = np.clip(np.asarray(lin, np.float64), 0.0, 1.0)
+        lin = np.asarray(lin)
+        if lin.dtype == np.float32:
+            v = clip_unit_float64(lin)  # the same values as below, in one pass
+        else:
+            v = np.clip(np.asarray(lin, np.float64), 0.0, 1.0)
         return self.black_cd_m2 + v @ self.lut[:, -1]
 
     def displayed_luminance(self, codes) -> np.ndarray:
         """Luminance (cd/m², shape (...)) the display shows for integer codes (..., 3)."""
         c = np.asarray(codes)
+        if (c.dtype in (np.uint8, np.uint16) and c.ndim >= 1 and c.shape[-1] == 3 and c.size
+                and (c.dtype == np.uint8 or int(c.max()) <= self.max_code)):
+            # the same sums in the same order, without three gathered temporaries
+            return code_luminance(c, self.lut, self.black_cd_m2)
         return (self.black_cd_m2 + self.lut[0][c[..., 0]] + self.lut[1][c[..., 1]]
                 + self.lut[2][c[..., 2]])
 
@@ -156,6 +194,49 @@ class Display:
         if self.kind == "table":
             d["table"] = os.path.basename(self.table)
         return d
+
+
+#: Bit depths whose analytic displays quantise through threshold tables.
+THRESHOLD_BITS = (8, 10)
+#: Float32 neighbours either side of each threshold checked against the transfer.
+THRESHOLD_CHECK = 64
+_ONE_BITS = 0x3F800000  # float32 1.0: the bit patterns of [0, 1] are 0 .. this, in order
+_THRESHOLDS: dict = {}
+
+
+def _reference_codes(display, x, mode):
+    """The codes the NumPy path gives for float32 values x (float64 array of codes)."""
+    c = display.continuous_code(x)
+    if mode == "round":
+        return np.round(c)
+    return np.minimum(c.astype(np.intp), display.max_code - 1).astype(np.float64)
+
+
+def _threshold_table(display, mode):
+    top = display.max_code if mode == "round" else display.max_code - 1
+    f32 = lambda b: np.asarray(b, np.uint32).view(np.float32)  # noqa: E731
+    ks = np.arange(1, top + 1, dtype=np.float64)
+    lo = np.zeros(top, np.int64)
+    hi = np.full(top, _ONE_BITS, np.int64)
+    reach = _reference_codes(display, f32(np.array([_ONE_BITS])), mode)[0] >= ks
+    # invariant: code(lo) < k <= code(hi) (where k is reached at all)
+    while np.any(hi - lo > 1):
+        mid = (lo + hi) // 2
+        up = _reference_codes(display, f32(mid), mode) >= ks
+        hi = np.where(up, mid, hi)
+        lo = np.where(up, lo, mid)
+    thr = np.full(top + 2, np.inf, np.float32)
+    thr[0] = -np.inf
+    thr[1:top + 1] = np.where(reach, f32(hi), np.inf)
+    # Check the table where a rounding of the transfer could disagree with it: the
+    # float32 values around each threshold (elsewhere the code is far from a step).
+    w = np.arange(-THRESHOLD_CHECK, THRESHOLD_CHECK + 1)
+    bits = np.clip(hi[reach][:, None] + w[None, :], 0, _ONE_BITS).ravel()
+    x = f32(bits)
+    if not np.array_equal(np.searchsorted(thr[1:top + 1], x, side="right").astype(np.float64),
+                          _reference_codes(display, x, mode)):
+        return None
+    return CodeTable.from_thresholds(thr, 16 << int(np.ceil(np.log2(top + 1))))
 
 
 def make_display(kind="srgb", bits=8, black_cd_m2=None, white_cd_m2=None, gamma=None, table=None,
@@ -379,9 +460,50 @@ def displayed_stats(display, lin, codes, mask=None, prefix="") -> dict:
     dict with ``{prefix}mean_cd_m2_intended``, ``..._displayed``, ``{prefix}michelson_*``
     and ``{prefix}rms_contrast_*`` (see :func:`contrast_stats`).
     """
+    fast = _fast_stats(display, lin, codes, mask, prefix)
+    if fast is not None:
+        return fast
     out = {}
     for tag, lum in (("intended", display.intended_luminance(lin)),
                      ("displayed", display.displayed_luminance(codes))):
         for k, v in contrast_stats(lum, mask).items():
+            out[f"{prefix}{k}_{tag}"] = v
+    return out
+
+
+def displayed_stats_grey(display, grey, codes, mask=None, prefix="") -> dict:
+    """:func:`displayed_stats` of a grey image given by one channel: ``grey`` (H, W)
+    linear values and ``codes`` (H, W), every channel the same."""
+    fast = _fast_stats(display, grey, codes, mask, prefix)
+    if fast is not None:
+        return fast
+    return displayed_stats(display, np.repeat(np.asarray(grey)[..., None], 3, axis=2),
+                           np.repeat(np.asarray(codes)[..., None], 3, axis=2), mask, prefix)
+
+
+def _fast_stats(display, lin, codes, mask, prefix):
+    """The statistics by :func:`renderer.kernels.codes.luminance_moments` (the same
+    numbers in one pass over the images), or None where it does not apply."""
+    lin, codes = np.asarray(lin), np.asarray(codes)
+    if not (lin.dtype == np.float32 and lin.ndim in (2, 3) and lin.shape[1] >= 2
+            and codes.shape == lin.shape and (lin.ndim == 2 or lin.shape[2] == 3)
+            and codes.dtype in (np.uint8, np.uint16) and codes.size
+            and (mask is None or np.shape(mask) == lin.shape[:2])
+            and (codes.dtype == np.uint8 or int(codes.max()) <= display.max_code)):
+        return None
+    n, m = luminance_moments(lin, codes, display.lut[:, -1], display.lut, display.black_cd_m2,
+                             mask)
+    out = {}
+    for tag, (mean, hi, lo, var) in (("intended", m[:4]), ("displayed", m[4:])):
+        if n == 0:
+            stats = {"mean_cd_m2": float("nan"), "michelson": float("nan"),
+                     "rms_contrast": float("nan")}
+        else:
+            # as contrast_stats computes them from these moments
+            mean, hi, lo = float(mean), float(hi), float(lo)
+            mich = (hi - lo) / (hi + lo) if hi + lo > 0 else float("nan")
+            rms = float(np.sqrt(var)) / mean if mean > 0 else float("nan")
+            stats = {"mean_cd_m2": mean, "michelson": mich, "rms_contrast": rms}
+        for k, v in stats.items():
             out[f"{prefix}{k}_{tag}"] = v
     return out

@@ -26,6 +26,7 @@ from __future__ import annotations
 import numpy as np
 
 from .errors import MagretinaError
+from .kernels.codes import dither_codes, threshold_codes
 
 METHODS = ("none", "noise", "ordered")
 
@@ -80,6 +81,34 @@ def quantise(display, lin, method="none", seed=None) -> np.ndarray:
     -------
     (H, W, 3) uint8 (8-bit display) or uint16 (10- and 16-bit), values 0 .. 2**bits − 1.
     """
+    check_method(method)
+    dtype = np.uint8 if display.bits == 8 else np.uint16
+    lin = np.asarray(lin)
+    if method != "none":
+        if seed is None:
+            raise MagretinaError(f"dither {method!r} needs a seed")
+        if not isinstance(seed, np.random.SeedSequence):
+            seed = np.random.SeedSequence(int(seed))
+    table = (display.code_thresholds("round" if method == "none" else "floor")
+             if lin.dtype == np.float32 and lin.ndim in (2, 3) else None)
+    if table is not None:
+        # The same codes as quantise_reference, by threshold tables (renderer.kernels.codes)
+        out = np.empty(lin.shape, dtype)
+        src = np.ascontiguousarray(lin)
+        if method == "none":
+            done = threshold_codes(src, table, out)
+        else:
+            t = thresholds(lin.shape[:2], method, seed)
+            done = dither_codes(src, t, table, display.code_luminance(), out)
+        if done:
+            return out
+    return quantise_reference(display, lin, method, seed)
+
+
+def quantise_reference(display, lin, method="none", seed=None) -> np.ndarray:
+    """:func:`quantise` evaluated with the display's transfer function in NumPy: the
+    reference the threshold tables reproduce (and the path for float64 input, NaN,
+    measured tables and 16-bit displays).  ``seed`` as :func:`quantise`."""
     check_method(method)
     dtype = np.uint8 if display.bits == 8 else np.uint16
     lin = np.asarray(lin)

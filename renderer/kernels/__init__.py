@@ -13,6 +13,8 @@ need not know which module holds what.  The package, bottom to top:
 * :mod:`~renderer.kernels.rows`: row passes of equirectangular views;
 * :mod:`~renderer.kernels.sampling`: equirectangular views over a resampled scene;
 * :mod:`~renderer.kernels.filtering`: the scene's mipmap pyramid and the footprint filter;
+* :mod:`~renderer.kernels.codes`: display codes by threshold tables and the luminance
+  images of the display metrics;
 * :mod:`~renderer.kernels.twins`: the NumPy reference twins.
 
 Everything here takes plain arrays and imports only numpy, numba and the bottom layer
@@ -33,6 +35,8 @@ from .layout import (CUBE_MODES, KERNEL_MODES, MODE_AXIAL, MODE_FULL_FIXED, MODE
                      MODE_RATIO, P_COS_IN, P_COS_OUT, P_COS_PSI, P_CUBE, P_DORSAL, P_E2, P_FULL, P_LUT, P_MODE,
                      P_NASAL, P_Q, P_RB0, P_RB1, P_RB2, P_SIGN, P_SIN_PSI, P_TEMPORAL,
                      P_VENTRAL, PARAMS, pack_eyes)
+from .codes import (clip_unit_float64, code_luminance, dither_codes, grey_pattern,
+                    threshold_codes)
 from .filtering import FILTERS, NTAPS_MAX, Pyramid, build_pyramid, ntaps_for
 from .leaf import ATAN_COEFFS, ATAN_MARGIN, FASTMATH, fast_angle
 from .pixels import composite_dirs, pattern_dirs
@@ -57,4 +61,5 @@ __all__ = [
     "receptor_frames_numpy", "sample_equirect_numpy", "signal_numpy", "visible_numpy",
     "FILTERS", "NTAPS_MAX", "Pyramid", "build_pyramid", "grid_tangents_numpy", "ntaps_for",
     "sample_filtered_numpy", "sample_mipmap_numpy", "scene_jacobian_numpy",
+    "clip_unit_float64", "code_luminance", "dither_codes", "grey_pattern", "threshold_codes",
 ]

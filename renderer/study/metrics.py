@@ -33,9 +33,9 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from ..composite import pattern_grey
-from ..display import SRGB8, displayed_stats
+from ..display import SRGB8, displayed_stats, displayed_stats_grey
 from ..dither import frame_seed, quantise
+from ..kernels import grey_pattern
 from ..pipeline import composite_inputs, render_pattern, signal_map
 from ..predict import study_metrics
 
@@ -161,16 +161,20 @@ def display(ctx: MetricContext) -> dict:
             codes = quantise(disp, img, ctx.dither, ctx.dither_seed(name))
         out.update(displayed_stats(disp, img, codes, prefix=f"{tag}_frame_"))
         sig = ctx.signal_map(name)
-        pat = pattern_grey(sig, ctx.mean_signal, ctx.gain, grey=ctx.pattern_grey)
+        # one channel of pattern_grey (the same float32 values; every channel is equal)
+        grey = grey_pattern(sig, ctx.mean_signal, ctx.gain, ctx.pattern_grey)
         seed = ctx.dither_seed(name, pattern=True)
+        seen = np.isfinite(sig)
         if disp.channels_alike:
             # A grey image on a display whose channels share one curve: quantise one
             # channel (the dither threshold is shared by the channels anyway).
-            pcodes = np.repeat(quantise(disp, pat[..., :1], ctx.dither, seed), 3, axis=2)
+            pcodes = quantise(disp, grey, ctx.dither, seed)
+            out.update(displayed_stats_grey(disp, grey, pcodes, mask=seen,
+                                            prefix=f"{tag}_pattern_"))
         else:
-            pcodes = quantise(disp, pat, ctx.dither, seed)
-        out.update(displayed_stats(disp, pat, pcodes, mask=np.isfinite(sig),
-                                   prefix=f"{tag}_pattern_"))
+            pat = np.repeat(grey[..., None], 3, axis=2)
+            out.update(displayed_stats(disp, pat, quantise(disp, pat, ctx.dither, seed),
+                                       mask=seen, prefix=f"{tag}_pattern_"))
     return out
 
 
