@@ -12,7 +12,7 @@ Prints, in one run and side by side:
 * the shot throughput of a 2-worker Dask LocalCluster relative to the local pool,
   on the same frames as 360 one-frame shots.
 
-Usage: ``.venv/bin/python bench/study.py [--frames 360] [--width 1024]``.  Runs in a
+Usage: ``.venv/bin/python bench/study.py [--frames 360] [--width 1024] [--no-extras]``.  Runs in a
 temporary folder; takes about a minute on 2 cores.
 """
 
@@ -120,6 +120,8 @@ def main():
     ap.add_argument("--frames", type=int, default=360)
     ap.add_argument("--width", type=int, default=1024)
     ap.add_argument("--jobs", type=int, default=2)
+    ap.add_argument("--no-extras", action="store_true",
+                    help="only the run and the floor (skip the level-6 floor and the Dask shots)")
     a = ap.parse_args()
 
     from renderer.study import run_study
@@ -149,17 +151,20 @@ def main():
         floor_dir = os.path.join(tmp, "floor")
         os.makedirs(floor_dir)
         t_floor = encoding_floor(codes, a.frames, a.jobs, floor_dir)
-        t_old = encoding_floor(lin, a.frames, a.jobs, floor_dir, old=True)
+        t_old = None if a.no_extras else encoding_floor(lin, a.frames, a.jobs, floor_dir, old=True)
 
         print(f"study run, {a.frames} frames {a.width}x{a.width // 2}, {a.jobs} local workers: "
               f"{t_run:7.2f} s  ({a.frames / t_run:6.1f} frames/s, includes pool start, "
               f"planning, metrics, tables)")
         print(f"encoding floor (fastest lossless PNG + atomic write, {a.jobs} workers): "
               f"{t_floor:7.2f} s  ({a.frames / t_floor:6.1f} frames/s)")
-        print(f"  floor as defined before (sRGB + zlib level 6 + atomic write): "
-              f"{t_old:7.2f} s  ({a.frames / t_old:6.1f} frames/s)")
+        if t_old is not None:
+            print(f"  floor as defined before (sRGB + zlib level 6 + atomic write): "
+                  f"{t_old:7.2f} s  ({a.frames / t_old:6.1f} frames/s)")
         print(f"ratio run / floor: {t_run / t_floor:5.2f}x   (target <= 1.1x); "
               f"load average {os.getloadavg()[0]:.1f} on {os.cpu_count()} cores")
+        if a.no_extras:
+            return
 
         shots = os.path.join(tmp, "shots.toml")
         with open(shots, "w") as fh:
